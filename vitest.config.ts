@@ -1,8 +1,8 @@
-import { defineConfig } from 'vitest/config';
-import { fileURLToPath } from 'node:url';
+/// <reference types="vitest/config" />
+import { getViteConfig } from 'astro/config';
 
-export default defineConfig({
-  resolve: { alias: { '~': fileURLToPath(new URL('./src', import.meta.url)) } },
+// Astro's Vite setup, so that code using astro:env runs under vitest as it does in the app.
+export default getViteConfig({
   test: {
     projects: [
       {

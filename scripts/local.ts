@@ -1,0 +1,17 @@
+/** Where the project keeps its local services: one place, so start, seed, stop and the tests agree. */
+import { fileURLToPath } from 'node:url';
+import { ensureCluster } from './postgres';
+
+export const ROOT = fileURLToPath(new URL('..', import.meta.url));
+export const DATA_DIR = `${ROOT}.data`;
+export const APP_CLUSTER_DIR = `${DATA_DIR}/postgres`;
+export const APP_DB_PORT = 54329;
+export const APP_SMTP_PORT = 54325;
+export const APP_WEB_PORT = 4321;
+
+/** DATABASE_URL when the lab set one; otherwise the project's own cluster, started if needed. */
+export async function appDatabaseUrl(): Promise<string> {
+  if (process.env.DATABASE_URL) return process.env.DATABASE_URL;
+  const cluster = await ensureCluster({ dataDir: APP_CLUSTER_DIR, port: APP_DB_PORT, database: 'biaswise' });
+  return cluster.url;
+}

@@ -1,0 +1,226 @@
+import { StatsInputError } from './errors';
+import { createDesign, madScale, type LinearDesign } from './linear';
+import { validateResponse } from './ols';
+import { seededRandom } from './random';
+import { validatePositive } from './validate';
+
+/** Options of the fast-S algorithm. */
+export interface SEstimatorOptions {
+  seed?: number;
+  /** Random elemental subsamples of p rows drawn. */
+  subsamples?: number;
+  /** Refinement (I-)steps applied to each subsample's fit before it is ranked. */
+  refinementSteps?: number;
+  /** Candidates kept after ranking and then refined to convergence. */
+  bestCandidates?: number;
+  /** Tuning constant c of the bisquare ρ; 1.548 with b = 0.5 gives a 50 % breakdown point. */
+  c?: number;
+  /** Right-hand side b of the M-scale equation mean ρ(r/s) = b. */
+  b?: number;
+  maxIterations?: number;
+  /** Relative change in the coefficients at which the full refinement stops. */
+  tolerance?: number;
+}
+
+/** An S-estimate: the coefficients minimising the M-scale of the residuals, and that scale. */
+export interface SEstimate {
+  coefficients: number[];
+  scale: number;
+  /** I-steps of the full refinement of the chosen candidate. */
+  iterations: number;
+  converged: boolean;
+  residuals: number[];
+}
+
+/** ρ of the bisquare normalised to sup ρ = 1: 1 − (1 − (u/c)²)³ for |u| ≤ c, 1 beyond. */
+function bisquareRho(u: number, c: number): number {
+  const z = (u / c) * (u / c);
+  if (z >= 1) return 1;
+  const v = 1 - z;
+  return 1 - v * v * v;
+}
+
+function meanRho(residuals: Float64Array, scale: number, c: number): number {
+  let sum = 0;
+  for (let i = 0; i < residuals.length; i++) sum += bisquareRho(residuals[i] / scale, c);
+  return sum / residuals.length;
+}
+
+/**
+ * M-scale of residuals: the s solving (1/n) Σ ρ(rᵢ/s) = b for the bisquare ρ normalised to sup ρ = 1
+ * (Rousseeuw & Yohai 1984), by the fixed-point iteration s ← s·√(mean ρ(r/s)/b) from `initial`.
+ *
+ * @example
+ * mScale(Float64Array.from([-1, 0.5, 2, -0.3, 1.2]), 1.548, 0.5, 1);
+ */
+export function mScale(
+  residuals: Float64Array,
+  c: number,
+  b: number,
+  initial: number,
+  tolerance = 1e-12,
+  maxIterations = 1000,
+): number {
+  let scale = initial;
+  for (let it = 0; it < maxIterations; it++) {
+    const next = scale * Math.sqrt(meanRho(residuals, scale, c) / b);
+    const change = Math.abs(next - scale) / scale;
+    scale = next;
+    if (change <= tolerance) break;
+  }
+  return scale;
+}
+
+/** One I-step of fast-S: weighted least squares with bisquare weights at the current scale, then one scale step. */
+function refinementStep(
+  design: LinearDesign,
+  y: Float64Array,
+  residuals: Float64Array,
+  weights: Float64Array,
+  scale: number,
+  c: number,
+  b: number,
+): { beta: Float64Array; scale: number } {
+  for (let i = 0; i < residuals.length; i++) {
+    const z = (residuals[i] / scale / c) ** 2;
+    weights[i] = z >= 1 ? 0 : (1 - z) * (1 - z);
+  }
+  const beta = design.solveWeighted(y, weights);
+  design.residuals(y, beta, residuals);
+  return { beta, scale: scale * Math.sqrt(meanRho(residuals, scale, c) / b) };
+}
+
+interface Candidate {
+  beta: Float64Array;
+  scale: number;
+}
+
+/** Draws p distinct row indices. */
+function drawRows(n: number, p: number, next: (n: number) => number): number[] {
+  const rows: number[] = [];
+  while (rows.length < p) {
+    const i = next(n);
+    if (!rows.includes(i)) rows.push(i);
+  }
+  return rows;
+}
+
+/** Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. */
+export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: SEstimatorOptions = {}): SEstimate {
+  const {
+    seed = 1,
+    subsamples = 500,
+    refinementSteps = 2,
+    bestCandidates = 5,
+    c = 1.548,
+    b = 0.5,
+    maxIterations = 200,
+    tolerance = 1e-10,
+  } = opts;
+  for (const [field, value] of [
+    ['subsamples', subsamples],
+    ['bestCandidates', bestCandidates],
+    ['maxIterations', maxIterations],
+  ] as const) {
+    if (!Number.isInteger(value) || value < 1) {
+      throw new StatsInputError(`${field} must be a whole number of at least 1 (got ${value})`, { field });
+    }
+  }
+  if (!Number.isInteger(refinementSteps) || refinementSteps < 0) {
+    throw new StatsInputError(`refinementSteps must be a whole number of at least 0 (got ${refinementSteps})`, {
+      field: 'refinementSteps',
+    });
+  }
+  validatePositive(c, 'c');
+  if (!(b > 0 && b < 1)) throw new StatsInputError(`b must be between 0 and 1 (got ${b})`, { field: 'b' });
+
+  const { n, p } = design;
+  const rng = seededRandom(seed);
+  const residuals = new Float64Array(n);
+  const weights = new Float64Array(n);
+  const scratch = new Float64Array(n);
+  const best: Candidate[] = [];
+  const maxDraws = subsamples * 50;
+
+  let accepted = 0;
+  for (let draws = 0; accepted < subsamples && draws < maxDraws; draws++) {
+    const elemental = design.solveExact(drawRows(n, p, rng.int), y);
+    if (!elemental) continue; // singular subsample (e.g. two equal x): draw again
+    accepted++;
+    let beta = elemental;
+    design.residuals(y, beta, residuals);
+    let scale = madScale(residuals, scratch);
+    try {
+      for (let k = 0; k < refinementSteps; k++) ({ beta, scale } = refinementStep(design, y, residuals, weights, scale, c, b));
+    } catch (error) {
+      if (error instanceof StatsInputError) continue; // all weight on one x value: this candidate cannot be refined
+      throw error;
+    }
+    // mean ρ(r/s) is decreasing in s, so if it is ≥ b at the worst kept scale this candidate's scale is not smaller
+    const worst = best.length === bestCandidates ? best[best.length - 1].scale : Infinity;
+    if (worst < Infinity && meanRho(residuals, worst, c) >= b) continue;
+    const candidate = { beta, scale: mScale(residuals, c, b, scale) };
+    const at = best.findIndex((kept) => kept.scale > candidate.scale);
+    best.splice(at === -1 ? best.length : at, 0, candidate);
+    if (best.length > bestCandidates) best.pop();
+  }
+  if (best.length === 0) {
+    throw new StatsInputError('no non-singular subsample of the data was found: the columns of X look collinear', {
+      field: 'X',
+    });
+  }
+
+  let chosen: (Candidate & { iterations: number; converged: boolean }) | undefined;
+  for (const candidate of best) {
+    let { beta, scale } = candidate;
+    design.residuals(y, beta, residuals);
+    let iterations = 0;
+    let converged = false;
+    while (iterations < maxIterations) {
+      const step = refinementStep(design, y, residuals, weights, scale, c, b);
+      iterations++;
+      let diff = 0;
+      let size = 0;
+      for (let j = 0; j < p; j++) {
+        diff += (step.beta[j] - beta[j]) ** 2;
+        size += beta[j] ** 2;
+      }
+      beta = step.beta;
+      scale = step.scale;
+      if (Math.sqrt(diff / Math.max(1e-20, size)) <= tolerance) {
+        converged = true;
+        break;
+      }
+    }
+    scale = mScale(residuals, c, b, scale);
+    if (!chosen || scale < chosen.scale) chosen = { beta, scale, iterations, converged };
+  }
+  const result = chosen as Candidate & { iterations: number; converged: boolean };
+  design.residuals(y, result.beta, residuals);
+  return {
+    coefficients: Array.from(result.beta),
+    scale: result.scale,
+    iterations: result.iterations,
+    converged: result.converged,
+    residuals: Array.from(residuals),
+  };
+}
+
+/**
+ * S-estimate of regression (Rousseeuw & Yohai 1984) by fast-S (Salibian-Barrera & Yohai, JCGS 2006):
+ * seeded random elemental subsamples of p rows, a few I-steps each, the best few kept (ranked by M-scale,
+ * skipping a candidate when mean ρ(r/s_worst) ≥ b shows it cannot enter), each kept one refined to convergence,
+ * and the one with the smallest M-scale returned. Bisquare ρ with c = 1.548, b = 0.5: 50 % breakdown.
+ * The same seed always gives the same result.
+ *
+ * @example
+ * fitSEstimator([[1, 1], [1, 2], [1, 3], [1, 4], [1, 5]], [1, 2, 3, 4, 40]).coefficients; // ≈ [0, 1]
+ */
+export function fitSEstimator(
+  X: readonly (readonly number[])[],
+  y: readonly number[],
+  opts: SEstimatorOptions = {},
+): SEstimate {
+  const design = createDesign(X);
+  return sEstimateOnDesign(design, validateResponse(design, y), opts);
+}

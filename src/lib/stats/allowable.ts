@@ -16,7 +16,7 @@ export interface AllowableLimit {
  * absolute → absolute; percent → percent·|X_c|/100; larger → max(absolute, percent·|X_c|/100).
  *
  * @example
- * allowableLimitAt({ absolute: 6, percent: 10, rule: 'larger' }, 126); // 12.6 (up to floating point)
+ * allowableLimitAt({ absolute: 6, percent: 10, rule: 'larger' }, 126); // 12.6
  * allowableLimitAt({ absolute: 6, percent: 10, rule: 'larger' }, 40); // 6
  */
 export function allowableLimitAt(limit: AllowableLimit, level: number): number {

@@ -60,7 +60,9 @@ const finiteNumber = z.number({ error: 'Enter a number.' }).finite('Enter a fini
 /**
  * Allowable bias at a decision level: an absolute limit in the analyte's units, a percentage of the level,
  * or the larger of the two (as acceptance limits are often written: "± 6 mg/dL or ± 8 %, whichever is greater").
- * A field the rule does not use is refused, so a stored protocol has one reading.
+ * A field the rule does not use is refused, so a stored protocol has one reading. The parsed value is an
+ * `AllowableLimit` of the statistics engine (plus its source): compute the limit at a level with
+ * `allowableLimitAt` from `./stats/allowable`.
  *
  * @example
  * allowableBiasSchema.parse({ rule: 'larger', absolute: 6, percent: 8, source: 'lab quality policy QP-12' });
@@ -93,21 +95,6 @@ export const allowableBiasSchema = z
     check('percent', needsPercent);
   });
 export type AllowableBias = z.output<typeof allowableBiasSchema>;
-
-/**
- * The allowable bias, in the analyte's units, at concentration `level`:
- * absolute → A; percent → P/100·|level|; larger → max(A, P/100·|level|).
- *
- * @example
- * allowableLimitAt({ rule: 'larger', absolute: 6, percent: 8, source: 's' }, 126); // 10.08
- * allowableLimitAt({ rule: 'larger', absolute: 6, percent: 8, source: 's' }, 50);  // 6
- */
-export function allowableLimitAt(bias: AllowableBias, level: number): number {
-  const percentLimit = ((bias.percent ?? 0) / 100) * Math.abs(level);
-  if (bias.rule === 'absolute') return bias.absolute ?? 0;
-  if (bias.rule === 'percent') return percentLimit;
-  return Math.max(bias.absolute ?? 0, percentLimit);
-}
 
 // ---------------------------------------------------------------------------------------------
 // Shared pieces

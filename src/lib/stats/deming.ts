@@ -35,7 +35,7 @@ export type WeightedDemingFit = DemingFit & {
  *
  * @example
  * const fit = fitDeming([1, 2, 3, 4, 5], [1.1, 2.3, 2.8, 4.2, 5.1], { lambda: 1 });
- * fit.slope; // ≈ 1.01
+ * fit.slope; // ≈ 0.997
  */
 export function fitDeming(x: readonly number[], y: readonly number[], options: DemingOptions = {}): DemingFit {
   const { lambda = 1, confidence = 0.95 } = options;
@@ -71,7 +71,7 @@ export function fitDeming(x: readonly number[], y: readonly number[], options: D
  * (the ratio of the two duplicate variances, each Σd²/(2n); Cornbleet & Gochman, Clin Chem 1979).
  *
  * @example
- * lambdaFromDuplicates([10, 20, 30], [10.2, 19.9, 30.1], [11, 21, 29], [10.6, 21.3, 29.5]); // ≈ 3.3
+ * lambdaFromDuplicates([10, 20, 30], [10.2, 19.9, 30.1], [11, 21, 29], [10.6, 21.3, 29.5]); // ≈ 8.33
  */
 export function lambdaFromDuplicates(
   x1: readonly number[],

@@ -6,7 +6,12 @@
 import { z } from 'zod';
 import type { MethodKey } from './stats/types';
 
-/** The straight-line estimators a protocol may name as primary (keys of the statistics engine). */
+/**
+ * The straight-line estimators a protocol may name as primary (keys of the statistics engine).
+ *
+ * @example
+ * REGRESSION_METHODS.includes('passingBablok'); // true
+ */
 export const REGRESSION_METHODS = [
   'ols',
   'deming',
@@ -18,8 +23,19 @@ export const REGRESSION_METHODS = [
   'mm',
 ] as const satisfies readonly MethodKey[];
 
-/** ψ families of the M-estimators. */
+/**
+ * ψ families of the M-estimators.
+ *
+ * @example
+ * PSI_FAMILIES.map((psi) => DEFAULT_TUNING[psi]); // [[1.345], [4.685], [2, 4, 8]]
+ */
 export const PSI_FAMILIES = ['huber', 'tukey', 'hampel'] as const;
+/**
+ * One ψ family.
+ *
+ * @example
+ * const psi: PsiFamily = 'tukey';
+ */
 export type PsiFamily = (typeof PSI_FAMILIES)[number];
 
 /**
@@ -35,7 +51,12 @@ export const DEFAULT_TUNING: Record<PsiFamily, readonly number[]> = {
   hampel: [2, 4, 8],
 };
 
-/** Laboratory disciplines a template may belong to. */
+/**
+ * Laboratory disciplines a template may belong to.
+ *
+ * @example
+ * DISCIPLINES.includes('immunoassay'); // true
+ */
 export const DISCIPLINES = [
   'clinical chemistry',
   'immunoassay',
@@ -52,7 +73,8 @@ const KEBAB_CASE = /^[a-z0-9]+(?:-[a-z0-9]+)*$/;
 
 const sourceText = z.string().trim().min(1, 'Give the source of this value (guideline, regulation or local policy).');
 
-const finiteNumber = z.number({ error: 'Enter a number.' }).finite('Enter a finite number.');
+/** z.number() refuses NaN and ±Infinity in zod 4. */
+const finiteNumber = z.number({ error: 'Enter a finite number.' });
 
 // ---------------------------------------------------------------------------------------------
 // Allowable bias
@@ -94,6 +116,12 @@ export const allowableBiasSchema = z
     check('absolute', needsAbsolute);
     check('percent', needsPercent);
   });
+/**
+ * A parsed allowable bias.
+ *
+ * @example
+ * const bias: AllowableBias = { rule: 'percent', percent: 10, source: 'lab quality policy QP-12' };
+ */
 export type AllowableBias = z.output<typeof allowableBiasSchema>;
 
 // ---------------------------------------------------------------------------------------------
@@ -160,7 +188,7 @@ const meaningText = z.string().trim().min(1, 'Say what this decision level means
  *
  * @example
  * const template = analyteTemplateSchema.parse(JSON.parse(readFileSync('protocols/glucose.json', 'utf8')));
- * template.decisionLevels.map((level) => level.value); // [70, 100, 126, 200]
+ * template.decisionLevels.map((level) => level.value); // [54, 70, 100, 126, 200]
  */
 export const analyteTemplateSchema = z
   .object({
@@ -206,14 +234,30 @@ export const analyteTemplateSchema = z
     notes: z.string().optional(),
   })
   .superRefine((template, ctx) => refineDecisionLevels(template.decisionLevels, template.measuringInterval, ctx));
+/**
+ * A parsed analyte template.
+ *
+ * @example
+ * const template: AnalyteTemplate = analyteTemplateSchema.parse(json);
+ */
 export type AnalyteTemplate = z.output<typeof analyteTemplateSchema>;
 
 // ---------------------------------------------------------------------------------------------
 // Protocol settings
 
-/** The sample plan's count below which a warning is shown (EP09 practice, from memory). */
+/**
+ * The sample plan's count below which a warning is shown (EP09 practice, from memory).
+ *
+ * @example
+ * settings.samplePlan.count < RECOMMENDED_MIN_SAMPLES; // then protocolWarnings names samplePlan.count
+ */
 export const RECOMMENDED_MIN_SAMPLES = 40;
-/** Days over which a warning suggests spreading the measurements (EP09 practice, from memory). */
+/**
+ * Days over which a warning suggests spreading the measurements (EP09 practice, from memory).
+ *
+ * @example
+ * settings.samplePlan.days < RECOMMENDED_MIN_DAYS; // then protocolWarnings names samplePlan.days
+ */
 export const RECOMMENDED_MIN_DAYS = 5;
 
 const intervalPartSchema = z.object({
@@ -222,6 +266,12 @@ const intervalPartSchema = z.object({
   high: finiteNumber,
   share: finiteNumber.min(0, 'A share is between 0 and 1.').max(1, 'A share is between 0 and 1.'),
 });
+/**
+ * One part of the measuring interval with its target share of the samples.
+ *
+ * @example
+ * const low: IntervalPart = { label: 'low', low: 10, high: 173, share: 1 / 3 };
+ */
 export type IntervalPart = z.output<typeof intervalPartSchema>;
 
 const SHARE_TOLERANCE = 1e-6;
@@ -347,9 +397,19 @@ export const protocolSettingsSchema = z
       });
     }
   });
-/** Protocol settings after parsing (defaults filled in). */
+/**
+ * Protocol settings after parsing (defaults filled in).
+ *
+ * @example
+ * const settings: ProtocolSettings = protocolSettingsSchema.parse(body);
+ */
 export type ProtocolSettings = z.output<typeof protocolSettingsSchema>;
-/** Protocol settings as a form or API client may send them (fields with defaults may be left out). */
+/**
+ * Protocol settings as a form or API client may send them (fields with defaults may be left out).
+ *
+ * @example
+ * const input: ProtocolSettingsInput = { ...settings, outlierPolicy: {} }; // parses with the defaults 0.05 and 0.025
+ */
 export type ProtocolSettingsInput = z.input<typeof protocolSettingsSchema>;
 
 function refineIntervalParts(parts: readonly IntervalPart[], interval: { low: number; high: number }, ctx: z.RefinementCtx) {
@@ -382,7 +442,12 @@ function refineIntervalParts(parts: readonly IntervalPart[], interval: { low: nu
 // ---------------------------------------------------------------------------------------------
 // Warnings and starting points
 
-/** Something the designer should see that does not stop the protocol from being saved. */
+/**
+ * Something the designer should see that does not stop the protocol from being saved.
+ *
+ * @example
+ * const warning: ProtocolWarning = { path: 'samplePlan.count', message: 'The plan has 20 samples; …' };
+ */
 export interface ProtocolWarning {
   /** Dotted field path, as the form names fields, e.g. "samplePlan.count". */
   path: string;
@@ -430,15 +495,12 @@ export function protocolWarnings(settings: ProtocolSettings): ProtocolWarning[] 
   return warnings;
 }
 
-/** Rounds a boundary to 3 significant figures so the designer shows tidy numbers. */
-function tidy(value: number): number {
-  return Number(value.toPrecision(3));
-}
 
 /**
  * Splits a measuring interval into low, middle and high thirds with a third of the samples each.
  * Boundaries are equal steps on a linear scale when high/low ≤ 10, otherwise on a log scale: for analytes
  * spanning decades (TSH, hCG) linear thirds would put almost every decision level in the low third.
+ * Call it with a valid interval (low < high).
  *
  * @example
  * intervalThirds(10, 500);   // boundaries 10, 173, 337, 500
@@ -446,9 +508,14 @@ function tidy(value: number): number {
  */
 export function intervalThirds(low: number, high: number): IntervalPart[] {
   const logScale = low > 0 && high / low > 10;
-  const boundary = (step: number) =>
-    logScale ? tidy(low * (high / low) ** (step / 3)) : tidy(low + ((high - low) * step) / 3);
-  const bounds = [low, boundary(1), boundary(2), high];
+  const exact = [1, 2].map((step) => (logScale ? low * (high / low) ** (step / 3) : low + ((high - low) * step) / 3));
+  // Tidy numbers for the designer: the fewest significant figures (3 or more) that keep the parts in order.
+  let inner = exact;
+  for (let digits = 3; digits <= 15; digits++) {
+    inner = exact.map((value) => Number(value.toPrecision(digits)));
+    if (low < inner[0] && inner[0] < inner[1] && inner[1] < high) break;
+  }
+  const bounds = [low, ...inner, high];
   return ['low', 'middle', 'high'].map((label, index) => ({
     label,
     low: bounds[index],
@@ -484,7 +551,7 @@ function commonSettings(): Omit<ProtocolSettings, 'title' | 'templateId' | 'anal
  *
  * @example
  * const settings = defaultSettingsFromTemplate(glucoseTemplate);
- * settings.decisionLevels[2]; // { value: 126, meaning: 'Fasting plasma glucose …', allowableBias: { rule: 'larger', absolute: 6, percent: 8, source: '…' } }
+ * settings.decisionLevels[3]; // { value: 126, meaning: 'Fasting plasma glucose at or above 126 mg/dL …', allowableBias: { rule: 'larger', absolute: 6, percent: 8, source: '…' } }
  * protocolSettingsSchema.parse(settings); // passes
  */
 export function defaultSettingsFromTemplate(template: AnalyteTemplate): ProtocolSettings {

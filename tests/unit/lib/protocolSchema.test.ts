@@ -200,6 +200,13 @@ describe('intervalThirds', () => {
       parts.slice(1).forEach((part, index) => expect(part.low).toBe(parts[index].high));
     }
   });
+
+  it('keeps the parts in order when 3 significant figures cannot tell the boundaries apart', () => {
+    const parts = intervalThirds(1.0001, 1.0004);
+    parts.forEach((part) => expect(part.low).toBeLessThan(part.high));
+    expect(parts[0].low).toBe(1.0001);
+    expect(parts[2].high).toBe(1.0004);
+  });
 });
 
 describe('protocolSettingsSchema refusals, each at its field', () => {

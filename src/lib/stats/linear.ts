@@ -22,6 +22,8 @@ export interface LinearDesign {
   hatDiagonal(weights: Float64Array | null): Float64Array;
   /** Row i as a plain array. */
   row(i: number): number[];
+  /** The design made of the given rows only. */
+  select(rows: readonly number[]): LinearDesign;
 }
 
 /**
@@ -37,70 +39,70 @@ export function lineDesignMatrix(x: readonly number[]): number[][] {
 /**
  * Design for the line y = a + b·x. Weighted simple regression in closed form
  * (b = Σw(x − x̄)(y − ȳ) / Σw(x − x̄)², a = ȳ − b·x̄ with weighted means; any regression text),
- * computed in two passes over the data for accuracy.
+ * from one pass of sums about the mean of x.
  *
  * @example
  * const design = createLineDesign([1, 2, 3]);
  * design.solveWeighted(Float64Array.from([2, 4, 6]), null); // Float64Array [0, 2]
  */
 export function createLineDesign(x: readonly number[] | Float64Array): LinearDesign {
-  const xs = Float64Array.from(x);
+  const xs = new Float64Array(x);
   const n = xs.length;
+  // sums are taken about the unweighted mean of x (and y[0] for y), which keeps one-pass sums accurate
+  let shiftX = 0;
+  for (let i = 0; i < n; i++) shiftX += xs[i];
+  shiftX /= n;
 
-  /** Weighted sums: total weight, weighted mean of x and Σw(x − x̄)². */
+  function singular(): never {
+    throw new StatsInputError(
+      'the weighted line fit is singular: the samples with non-zero weight all have the same x value',
+      { field: 'x' },
+    );
+  }
+
+  /** Total weight, weighted mean of x and Σw(x − x̄)². */
   function moments(weights: Float64Array | null): { sumW: number; meanX: number; sxx: number } {
     let sumW = 0;
-    let sumWX = 0;
+    let sumX = 0;
+    let sumXX = 0;
     for (let i = 0; i < n; i++) {
-      const w = weights ? weights[i] : 1;
+      const w = weights === null ? 1 : weights[i];
+      const dx = xs[i] - shiftX;
       sumW += w;
-      sumWX += w * xs[i];
+      sumX += w * dx;
+      sumXX += w * dx * dx;
     }
-    const meanX = sumWX / sumW;
-    let sxx = 0;
-    for (let i = 0; i < n; i++) {
-      const d = xs[i] - meanX;
-      sxx += (weights ? weights[i] : 1) * d * d;
-    }
-    if (!(sumW > 0) || !(sxx > 0)) {
-      throw new StatsInputError(
-        'the weighted line fit is singular: the samples with non-zero weight all have the same x value',
-        { field: 'x' },
-      );
-    }
-    return { sumW, meanX, sxx };
+    const sxx = sumXX - (sumX * sumX) / sumW;
+    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
+    return { sumW, meanX: shiftX + sumX / sumW, sxx };
   }
 
   return {
     n,
     p: 2,
     solveWeighted(y, weights) {
+      const shiftY = y[0];
       let sumW = 0;
-      let sumWX = 0;
-      let sumWY = 0;
+      let sumX = 0;
+      let sumY = 0;
+      let sumXX = 0;
+      let sumXY = 0;
       for (let i = 0; i < n; i++) {
-        const w = weights ? weights[i] : 1;
+        const w = weights === null ? 1 : weights[i];
+        const dx = xs[i] - shiftX;
+        const wdx = w * dx;
+        const dy = y[i] - shiftY;
         sumW += w;
-        sumWX += w * xs[i];
-        sumWY += w * y[i];
+        sumX += wdx;
+        sumY += w * dy;
+        sumXX += wdx * dx;
+        sumXY += wdx * dy;
       }
-      const meanX = sumWX / sumW;
-      const meanY = sumWY / sumW;
-      let sxx = 0;
-      let sxy = 0;
-      for (let i = 0; i < n; i++) {
-        const w = weights ? weights[i] : 1;
-        const dx = xs[i] - meanX;
-        sxx += w * dx * dx;
-        sxy += w * dx * (y[i] - meanY);
-      }
-      if (!(sumW > 0) || !(sxx > 0)) {
-        throw new StatsInputError(
-          'the weighted line fit is singular: the samples with non-zero weight all have the same x value',
-          { field: 'x' },
-        );
-      }
-      const slope = sxy / sxx;
+      const sxx = sumXX - (sumX * sumX) / sumW;
+      if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
+      const slope = (sumXY - (sumX * sumY) / sumW) / sxx;
+      const meanX = shiftX + sumX / sumW;
+      const meanY = shiftY + sumY / sumW;
       return Float64Array.of(meanY - slope * meanX, slope);
     },
     solveExact(rows, y) {
@@ -127,11 +129,12 @@ export function createLineDesign(x: readonly number[] | Float64Array): LinearDes
       const hat = new Float64Array(n);
       for (let i = 0; i < n; i++) {
         const d = xs[i] - meanX;
-        hat[i] = (weights ? weights[i] : 1) * (1 / sumW + (d * d) / sxx);
+        hat[i] = (weights === null ? 1 : weights[i]) * (1 / sumW + (d * d) / sxx);
       }
       return hat;
     },
     row: (i) => [1, xs[i]],
+    select: (rows) => createLineDesign(rows.map((i) => xs[i])),
   };
 }
 
@@ -242,63 +245,117 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
       return hat;
     },
     row: (i) => rows[i].slice(),
+    select: (subset) => createDesign(subset.map((i) => rows[i])),
   };
 }
 
 /**
- * The k-th smallest value (0-based) of `values` by quickselect (Hoare, CACM 1961), in expected O(n).
+ * Moves the k-th smallest value of values[left..right] to index k, smaller ones before it and larger after,
+ * by Floyd & Rivest's selection (CACM 1975, algorithm 489), in expected n + min(k, n − k) comparisons.
+ */
+function floydRivest(values: Float64Array, k: number, left: number, right: number): void {
+  while (right > left) {
+    if (right - left > 600) {
+      // first narrow to a sample range that contains the k-th value with high probability
+      const m = right - left + 1;
+      const i = k - left + 1;
+      const z = Math.log(m);
+      const size = 0.5 * Math.exp((2 * z) / 3);
+      const spread = 0.5 * Math.sqrt((z * size * (m - size)) / m) * (i - m / 2 < 0 ? -1 : 1);
+      floydRivest(
+        values,
+        k,
+        Math.max(left, Math.floor(k - (i * size) / m + spread)),
+        Math.min(right, Math.floor(k + ((m - i) * size) / m + spread)),
+      );
+    }
+    const pivot = values[k];
+    let i = left;
+    let j = right;
+    swap(values, left, k);
+    if (values[right] > pivot) swap(values, right, left);
+    while (i < j) {
+      swap(values, i, j);
+      i++;
+      j--;
+      while (values[i] < pivot) i++;
+      while (values[j] > pivot) j--;
+    }
+    if (values[left] === pivot) swap(values, left, j);
+    else {
+      j++;
+      swap(values, j, right);
+    }
+    if (j <= k) left = j + 1;
+    if (k <= j) right = j - 1;
+  }
+}
+
+function swap(values: Float64Array, i: number, j: number): void {
+  const t = values[i];
+  values[i] = values[j];
+  values[j] = t;
+}
+
+/**
+ * The k-th smallest value (0-based) of `values` (Floyd & Rivest selection, expected O(n)).
  * Reorders `values` in place, so pass a scratch copy.
  *
  * @example
  * selectKth(Float64Array.from([5, 1, 4, 2]), 1); // 2
  */
 export function selectKth(values: Float64Array, k: number): number {
-  let lo = 0;
-  let hi = values.length - 1;
-  while (hi > lo) {
-    // median of three as pivot keeps sorted or nearly sorted input fast
-    const mid = (lo + hi) >> 1;
-    const a = values[lo];
-    const b = values[mid];
-    const c = values[hi];
-    const pivot = a < b ? (b < c ? b : a < c ? c : a) : a < c ? a : b < c ? c : b;
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (values[i] < pivot) i++;
-      while (values[j] > pivot) j--;
-      if (i <= j) {
-        const t = values[i];
-        values[i] = values[j];
-        values[j] = t;
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return values[k];
-  }
+  floydRivest(values, k, 0, values.length - 1);
   return values[k];
+}
+
+/** Median of values[0..m) given the overall ranks; `offset` is how many smaller values lie outside. */
+function middleOf(values: Float64Array, m: number, offset: number, n: number): number {
+  const half = n >> 1;
+  const upperAt = half - offset;
+  floydRivest(values, upperAt, 0, m - 1);
+  const upper = values[upperAt];
+  if (n % 2 === 1) return upper;
+  // after selection everything before `upperAt` is ≤ upper, so the lower middle is their maximum
+  let lower = -Infinity;
+  for (let i = 0; i < upperAt; i++) if (values[i] > lower) lower = values[i];
+  return (lower + upper) / 2;
 }
 
 /**
  * Median of |values|, using `scratch` (same length) as work space so that hot loops allocate nothing.
- * Even n: mean of the two middle values, as R's median().
+ * Even n: mean of the two middle values, as R's median(). `near`, a previous median (as in IRLS, where it
+ * changes little), lets one pass keep only the values within ±10 % of it and select among those;
+ * when the median is not in that band the full selection runs, so the result is the same either way.
  *
  * @example
  * medianAbs(Float64Array.from([-3, 1, 2]), new Float64Array(3)); // 2
  */
-export function medianAbs(values: Float64Array, scratch: Float64Array): number {
+export function medianAbs(values: Float64Array, scratch: Float64Array, near = 0): number {
   const n = values.length;
-  for (let i = 0; i < n; i++) scratch[i] = Math.abs(values[i]);
   const half = n >> 1;
-  const upper = selectKth(scratch, half);
-  if (n % 2 === 1) return upper;
-  // after selection everything left of `half` is ≤ upper, so the lower middle is their maximum
-  let lower = -Infinity;
-  for (let i = 0; i < half; i++) if (scratch[i] > lower) lower = scratch[i];
-  return (lower + upper) / 2;
+  if (near > 0) {
+    const low = near * 0.9;
+    const high = near * 1.1;
+    let below = 0;
+    let m = 0;
+    for (let i = 0; i < n; i++) {
+      const a = Math.abs(values[i]);
+      if (a < low) below++;
+      else if (a <= high) scratch[m++] = a;
+    }
+    const firstRank = n % 2 === 1 ? half : half - 1;
+    if (firstRank >= below && half < below + m) return middleOf(scratch, m, below, n);
+  }
+  for (let i = 0; i < n; i++) scratch[i] = Math.abs(values[i]);
+  return middleOf(scratch, n, 0, n);
+}
+
+/** A plain array copy of a typed array (Array.from goes through the iterator protocol and is slow). */
+export function toArray(values: Float64Array): number[] {
+  const out = new Array<number>(values.length);
+  for (let i = 0; i < values.length; i++) out[i] = values[i];
+  return out;
 }
 
 /** Normal consistency constant of the MAD, 0.6745 ≈ Φ⁻¹(0.75), as in R MASS::rlm. */
@@ -307,12 +364,13 @@ export const MAD_CONSTANT = 0.6745;
 /**
  * MAD about zero, median(|r|)/0.6745, the scale of MASS::rlm (scale.est = "MAD") and statsmodels RLM.
  * A zero MAD means at least half the residuals are exactly 0; weights would be undefined, so it throws.
+ * `previous`, the scale of the last iteration, only speeds the median up.
  *
  * @example
  * madScale(Float64Array.from([1, -2, 3]), new Float64Array(3)); // 2 / 0.6745
  */
-export function madScale(residuals: Float64Array, scratch: Float64Array): number {
-  const scale = medianAbs(residuals, scratch) / MAD_CONSTANT;
+export function madScale(residuals: Float64Array, scratch: Float64Array, previous = 0): number {
+  const scale = medianAbs(residuals, scratch, previous * MAD_CONSTANT) / MAD_CONSTANT;
   if (!(scale > 0)) {
     throw new StatsInputError(
       'the robust scale is 0: at least half of the samples lie exactly on the fitted line, so robust weights are undefined',

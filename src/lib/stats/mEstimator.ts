@@ -1,6 +1,6 @@
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, madScale, type LinearDesign } from './linear';
+import { createDesign, createLineDesign, madScale, toArray, type LinearDesign } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateConfidence, validateResponse } from './ols';
 import { sEstimateOnDesign } from './sEstimator';
@@ -109,7 +109,7 @@ function startingPoint(
         throw new StatsInputError(`start[${j}] is not a finite number (got ${String(v)})`, { field: 'start', index: j });
       }
     });
-    return { beta: Float64Array.from(choice), kind: 'given' };
+    return { beta: new Float64Array(choice), kind: 'given' };
   }
   if (choice === 'ols') return { beta: design.solveWeighted(y, null), kind: 'ols' };
   if (choice === 's-estimate') return { beta: Float64Array.from(sEstimateOnDesign(design, y, { seed }).coefficients), kind: 's-estimate' };
@@ -147,7 +147,7 @@ export function mEstimateOnDesign(
   let iterations = 0;
   let converged = false;
   while (iterations < maxIterations) {
-    if (fixedScale === undefined) scale = madScale(residuals, scratch);
+    if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
     for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] / scale);
     const next = design.solveWeighted(y, weights);
     design.residuals(y, next, residuals);
@@ -165,7 +165,7 @@ export function mEstimateOnDesign(
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));
   const df = n - p;
   const t = tQuantile(1 - (1 - confidence) / 2, df);
-  const coefficients = Array.from(beta);
+  const coefficients = toArray(beta);
   return {
     coefficients,
     standardErrors,
@@ -177,9 +177,9 @@ export function mEstimateOnDesign(
     iterations,
     converged,
     start: opts.startKind ?? start.kind,
-    weights: Array.from(weights),
-    hat: Array.from(design.hatDiagonal(weights)),
-    residuals: Array.from(residuals),
+    weights: toArray(weights),
+    hat: toArray(design.hatDiagonal(weights)),
+    residuals: toArray(residuals),
   };
 }
 
@@ -249,6 +249,6 @@ export function fitRobustLine(
 ): LineFit {
   validatePairs(x, y);
   const norm = normByKey(method, opts.tuning);
-  const estimate = mEstimateOnDesign(createLineDesign(x), Float64Array.from(y), norm, opts);
+  const estimate = mEstimateOnDesign(createLineDesign(x), new Float64Array(y), norm, opts);
   return lineFitFromMEstimate(method, x.length, estimate);
 }

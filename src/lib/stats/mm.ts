@@ -60,5 +60,5 @@ export function fitMM(X: readonly (readonly number[])[], y: readonly number[], o
  */
 export function fitMMLine(x: readonly number[], y: readonly number[], opts: MMOptions = {}): LineFit {
   validatePairs(x, y);
-  return lineFitFromMEstimate('mm', x.length, mmOnDesign(createLineDesign(x), Float64Array.from(y), opts));
+  return lineFitFromMEstimate('mm', x.length, mmOnDesign(createLineDesign(x), new Float64Array(y), opts));
 }

@@ -16,6 +16,129 @@ export interface RobustNorm {
   weight(u: number): number;
 }
 
+// Each family is a class so that all its instances share one set of methods: IRLS loops call them
+// per sample, and shared methods keep those calls cheap (inlined) whatever the tuning constants.
+
+class LeastSquaresNorm implements RobustNorm {
+  readonly name = 'leastSquares' as const;
+  readonly tuning: number[] = [];
+  readonly convex = true;
+  rho(u: number): number {
+    return (u * u) / 2;
+  }
+  psi(u: number): number {
+    return u;
+  }
+  psiDeriv(): number {
+    return 1;
+  }
+  weight(): number {
+    return 1;
+  }
+}
+
+class HuberNorm implements RobustNorm {
+  readonly name = 'huber' as const;
+  readonly convex = true;
+  readonly tuning: number[];
+  constructor(private readonly t: number) {
+    this.tuning = [t];
+  }
+  rho(u: number): number {
+    const a = Math.abs(u);
+    return a <= this.t ? (u * u) / 2 : this.t * a - (this.t * this.t) / 2;
+  }
+  psi(u: number): number {
+    return u > this.t ? this.t : u < -this.t ? -this.t : u;
+  }
+  psiDeriv(u: number): number {
+    return Math.abs(u) <= this.t ? 1 : 0;
+  }
+  weight(u: number): number {
+    const a = Math.abs(u);
+    return a <= this.t ? 1 : this.t / a;
+  }
+}
+
+class TukeyBisquareNorm implements RobustNorm {
+  readonly name = 'tukey' as const;
+  readonly convex = false;
+  readonly tuning: number[];
+  private readonly rhoMax: number;
+  constructor(private readonly c: number) {
+    this.tuning = [c];
+    this.rhoMax = (c * c) / 6;
+  }
+  rho(u: number): number {
+    if (Math.abs(u) > this.c) return this.rhoMax;
+    const v = 1 - (u / this.c) ** 2;
+    return this.rhoMax * (1 - v * v * v);
+  }
+  psi(u: number): number {
+    if (Math.abs(u) > this.c) return 0;
+    const v = 1 - (u / this.c) ** 2;
+    return u * v * v;
+  }
+  psiDeriv(u: number): number {
+    if (Math.abs(u) > this.c) return 0;
+    const z2 = (u / this.c) ** 2;
+    return (1 - z2) * (1 - 5 * z2);
+  }
+  weight(u: number): number {
+    if (Math.abs(u) > this.c) return 0;
+    const v = 1 - (u / this.c) ** 2;
+    return v * v;
+  }
+}
+
+class HampelNorm implements RobustNorm {
+  readonly name = 'hampel' as const;
+  readonly convex = false;
+  readonly tuning: number[];
+  private readonly slope: number;
+  private readonly rhoAtB: number;
+  private readonly rhoMax: number;
+  constructor(
+    private readonly a: number,
+    private readonly b: number,
+    private readonly c: number,
+  ) {
+    this.tuning = [a, b, c];
+    this.slope = a / (c - b);
+    this.rhoAtB = a * b - (a * a) / 2;
+    this.rhoMax = this.rhoAtB + (a * (c - b)) / 2;
+  }
+  rho(u: number): number {
+    const { a, b, c } = this;
+    const z = Math.abs(u);
+    if (z <= a) return (z * z) / 2;
+    if (z <= b) return a * z - (a * a) / 2;
+    if (z <= c) return this.rhoAtB + this.slope * (c * (z - b) - (z * z - b * b) / 2);
+    return this.rhoMax;
+  }
+  psi(u: number): number {
+    const z = Math.abs(u);
+    if (z <= this.a) return u;
+    if (z <= this.b) return this.a * Math.sign(u);
+    if (z <= this.c) return Math.sign(u) * this.slope * (this.c - z);
+    return 0;
+  }
+  psiDeriv(u: number): number {
+    const z = Math.abs(u);
+    if (z <= this.a) return 1;
+    if (z <= this.b) return 0;
+    if (z <= this.c) return -this.slope;
+    return 0;
+  }
+  weight(u: number): number {
+    const z = Math.abs(u);
+    if (z <= this.a) return 1;
+    if (z <= this.b) return this.a / z;
+    if (z <= this.c) return (this.slope * (this.c - z)) / z;
+    return 0;
+  }
+}
+
 /**
  * Least squares as a norm: ρ(u) = u²/2, ψ(u) = u, w(u) = 1, so IRLS with it is one ordinary fit.
  *
@@ -23,15 +146,7 @@ export interface RobustNorm {
  * leastSquaresNorm().psi(3); // 3
  */
 export function leastSquaresNorm(): RobustNorm {
-  return {
-    name: 'leastSquares',
-    tuning: [],
-    convex: true,
-    rho: (u) => (u * u) / 2,
-    psi: (u) => u,
-    psiDeriv: () => 1,
-    weight: () => 1,
-  };
+  return new LeastSquaresNorm();
 }
 
 /**
@@ -43,21 +158,7 @@ export function leastSquaresNorm(): RobustNorm {
  */
 export function huberNorm(t = 1.345): RobustNorm {
   validatePositive(t, 'tuning');
-  return {
-    name: 'huber',
-    tuning: [t],
-    convex: true,
-    rho: (u) => {
-      const a = Math.abs(u);
-      return a <= t ? (u * u) / 2 : t * a - (t * t) / 2;
-    },
-    psi: (u) => (u > t ? t : u < -t ? -t : u),
-    psiDeriv: (u) => (Math.abs(u) <= t ? 1 : 0),
-    weight: (u) => {
-      const a = Math.abs(u);
-      return a <= t ? 1 : t / a;
-    },
-  };
+  return new HuberNorm(t);
 }
 
 /**
@@ -70,32 +171,7 @@ export function huberNorm(t = 1.345): RobustNorm {
  */
 export function tukeyBisquareNorm(c = 4.685): RobustNorm {
   validatePositive(c, 'tuning');
-  const rhoMax = (c * c) / 6;
-  return {
-    name: 'tukey',
-    tuning: [c],
-    convex: false,
-    rho: (u) => {
-      if (Math.abs(u) > c) return rhoMax;
-      const v = 1 - (u / c) ** 2;
-      return rhoMax * (1 - v * v * v);
-    },
-    psi: (u) => {
-      if (Math.abs(u) > c) return 0;
-      const v = 1 - (u / c) ** 2;
-      return u * v * v;
-    },
-    psiDeriv: (u) => {
-      if (Math.abs(u) > c) return 0;
-      const z2 = (u / c) ** 2;
-      return (1 - z2) * (1 - 5 * z2);
-    },
-    weight: (u) => {
-      if (Math.abs(u) > c) return 0;
-      const v = 1 - (u / c) ** 2;
-      return v * v;
-    },
-  };
+  return new TukeyBisquareNorm(c);
 }
 
 /**
@@ -115,42 +191,7 @@ export function hampelNorm(a = 2, b = 4, c = 8): RobustNorm {
       field: 'tuning',
     });
   }
-  const slope = a / (c - b);
-  const rhoAtB = a * b - (a * a) / 2;
-  const rhoMax = rhoAtB + (a * (c - b)) / 2;
-  return {
-    name: 'hampel',
-    tuning: [a, b, c],
-    convex: false,
-    rho: (u) => {
-      const z = Math.abs(u);
-      if (z <= a) return (z * z) / 2;
-      if (z <= b) return a * z - (a * a) / 2;
-      if (z <= c) return rhoAtB + slope * (c * (z - b) - (z * z - b * b) / 2);
-      return rhoMax;
-    },
-    psi: (u) => {
-      const z = Math.abs(u);
-      if (z <= a) return u;
-      if (z <= b) return a * Math.sign(u);
-      if (z <= c) return Math.sign(u) * slope * (c - z);
-      return 0;
-    },
-    psiDeriv: (u) => {
-      const z = Math.abs(u);
-      if (z <= a) return 1;
-      if (z <= b) return 0;
-      if (z <= c) return -slope;
-      return 0;
-    },
-    weight: (u) => {
-      const z = Math.abs(u);
-      if (z <= a) return 1;
-      if (z <= b) return a / z;
-      if (z <= c) return (slope * (c - z)) / z;
-      return 0;
-    },
-  };
+  return new HampelNorm(a, b, c);
 }
 
 /** The robust line methods that are M-estimators with a fixed ψ family. */

@@ -1,6 +1,6 @@
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, type LinearDesign } from './linear';
+import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
 import type { LineFit } from './types';
 import { validateFinite, validatePairs } from './validate';
 
@@ -45,7 +45,7 @@ export function validateResponse(design: LinearDesign, y: readonly number[]): Fl
       field: 'y',
     });
   }
-  return Float64Array.from(y);
+  return new Float64Array(y);
 }
 
 /** OLS on a prepared design (shared by the matrix and the line entry points). */
@@ -62,7 +62,7 @@ export function olsOnDesign(design: LinearDesign, y: Float64Array, confidence = 
   const covariance = design.crossProductInverse(null).map((row) => row.map((v) => v * sigma2));
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));
   const t = tQuantile(1 - (1 - confidence) / 2, df);
-  const coefficients = Array.from(beta);
+  const coefficients = toArray(beta);
   return {
     coefficients,
     standardErrors,
@@ -71,9 +71,9 @@ export function olsOnDesign(design: LinearDesign, y: Float64Array, confidence = 
     confidence,
     residualSD: Math.sqrt(sigma2),
     df,
-    residuals: Array.from(residuals),
-    fitted: Array.from(y, (yi, i) => yi - residuals[i]),
-    hat: Array.from(design.hatDiagonal(null)),
+    residuals: toArray(residuals),
+    fitted: toArray(y.map((yi, i) => yi - residuals[i])),
+    hat: toArray(design.hatDiagonal(null)),
   };
 }
 
@@ -107,7 +107,7 @@ export function fitOlsLine(
   { confidence = 0.95 }: { confidence?: number } = {},
 ): LineFit {
   validatePairs(x, y);
-  const result = olsOnDesign(createLineDesign(x), Float64Array.from(y), confidence);
+  const result = olsOnDesign(createLineDesign(x), new Float64Array(y), confidence);
   const [[caa, cab], [, cbb]] = result.covariance;
   return {
     method: 'ols',

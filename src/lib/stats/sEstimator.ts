@@ -1,7 +1,7 @@
 import { StatsInputError } from './errors';
-import { createDesign, madScale, type LinearDesign } from './linear';
+import { createDesign, madScale, toArray, type LinearDesign } from './linear';
 import { validateResponse } from './ols';
-import { seededRandom } from './random';
+import { seededRandom, type SeededRandom } from './random';
 import { validatePositive } from './validate';
 
 /** Options of the fast-S algorithm. */
@@ -15,11 +15,15 @@ export interface SEstimatorOptions {
   bestCandidates?: number;
   /** Tuning constant c of the bisquare ρ; 1.548 with b = 0.5 gives a 50 % breakdown point. */
   c?: number;
-  /** Right-hand side b of the M-scale equation mean ρ(r/s) = b. */
+  /** Right-hand side b of the M-scale equation Σρ(r/s)/(n − p) = b. */
   b?: number;
   maxIterations?: number;
   /** Relative change in the coefficients at which the full refinement stops. */
   tolerance?: number;
+  /** Above this many samples the subsampling stage runs on a random subset (the full data is used for the final refinement). */
+  largeSample?: number;
+  /** Size of that subset. */
+  searchSubsetSize?: number;
 }
 
 /** An S-estimate: the coefficients minimising the M-scale of the residuals, and that scale. */
@@ -40,30 +44,34 @@ function bisquareRho(u: number, c: number): number {
   return 1 - v * v * v;
 }
 
-function meanRho(residuals: Float64Array, scale: number, c: number): number {
+/** Σρ(rᵢ/s)/(n − p): the left side of the M-scale equation. */
+function meanRho(residuals: Float64Array, scale: number, c: number, df: number): number {
   let sum = 0;
   for (let i = 0; i < residuals.length; i++) sum += bisquareRho(residuals[i] / scale, c);
-  return sum / residuals.length;
+  return sum / df;
 }
 
 /**
- * M-scale of residuals: the s solving (1/n) Σ ρ(rᵢ/s) = b for the bisquare ρ normalised to sup ρ = 1
- * (Rousseeuw & Yohai 1984), by the fixed-point iteration s ← s·√(mean ρ(r/s)/b) from `initial`.
+ * M-scale of the residuals of a fit with p coefficients: the s solving Σρ(rᵢ/s)/(n − p) = b for the bisquare ρ
+ * normalised to sup ρ = 1 (Rousseeuw & Yohai 1984; the n − p denominator is the small-sample form used by
+ * R robustbase lmrob.S), by the fixed-point iteration s ← s·√(Σρ(r/s)/((n − p)b)) from `initial`.
  *
  * @example
- * mScale(Float64Array.from([-1, 0.5, 2, -0.3, 1.2]), 1.548, 0.5, 1);
+ * mScale(Float64Array.from([-1, 0.5, 2, -0.3, 1.2]), 2, 1.548, 0.5, 1);
  */
 export function mScale(
   residuals: Float64Array,
+  p: number,
   c: number,
   b: number,
   initial: number,
   tolerance = 1e-12,
   maxIterations = 1000,
 ): number {
+  const df = residuals.length - p;
   let scale = initial;
   for (let it = 0; it < maxIterations; it++) {
-    const next = scale * Math.sqrt(meanRho(residuals, scale, c) / b);
+    const next = scale * Math.sqrt(meanRho(residuals, scale, c, df) / b);
     const change = Math.abs(next - scale) / scale;
     scale = next;
     if (change <= tolerance) break;
@@ -87,12 +95,17 @@ function refinementStep(
   }
   const beta = design.solveWeighted(y, weights);
   design.residuals(y, beta, residuals);
-  return { beta, scale: scale * Math.sqrt(meanRho(residuals, scale, c) / b) };
+  return { beta, scale: scale * Math.sqrt(meanRho(residuals, scale, c, residuals.length - design.p) / b) };
 }
 
 interface Candidate {
   beta: Float64Array;
   scale: number;
+}
+
+interface Refined extends Candidate {
+  iterations: number;
+  converged: boolean;
 }
 
 /** Draws p distinct row indices. */
@@ -105,43 +118,29 @@ function drawRows(n: number, p: number, next: (n: number) => number): number[] {
   return rows;
 }
 
-/** Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. */
-export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: SEstimatorOptions = {}): SEstimate {
-  const {
-    seed = 1,
-    subsamples = 500,
-    refinementSteps = 2,
-    bestCandidates = 5,
-    c = 1.548,
-    b = 0.5,
-    maxIterations = 200,
-    tolerance = 1e-10,
-  } = opts;
-  for (const [field, value] of [
-    ['subsamples', subsamples],
-    ['bestCandidates', bestCandidates],
-    ['maxIterations', maxIterations],
-  ] as const) {
-    if (!Number.isInteger(value) || value < 1) {
-      throw new StatsInputError(`${field} must be a whole number of at least 1 (got ${value})`, { field });
-    }
-  }
-  if (!Number.isInteger(refinementSteps) || refinementSteps < 0) {
-    throw new StatsInputError(`refinementSteps must be a whole number of at least 0 (got ${refinementSteps})`, {
-      field: 'refinementSteps',
-    });
-  }
-  validatePositive(c, 'c');
-  if (!(b > 0 && b < 1)) throw new StatsInputError(`b must be between 0 and 1 (got ${b})`, { field: 'b' });
+/** Constants of one S-estimation, after validation. */
+interface Settings {
+  subsamples: number;
+  refinementSteps: number;
+  bestCandidates: number;
+  c: number;
+  b: number;
+  maxIterations: number;
+  tolerance: number;
+}
 
+/**
+ * The subsampling stage of fast-S: elemental fits, `refinementSteps` I-steps each, and the `bestCandidates`
+ * smallest M-scales kept, in increasing order of scale.
+ */
+function searchCandidates(design: LinearDesign, y: Float64Array, settings: Settings, rng: SeededRandom): Candidate[] {
+  const { subsamples, refinementSteps, bestCandidates, c, b } = settings;
   const { n, p } = design;
-  const rng = seededRandom(seed);
   const residuals = new Float64Array(n);
   const weights = new Float64Array(n);
   const scratch = new Float64Array(n);
   const best: Candidate[] = [];
   const maxDraws = subsamples * 50;
-
   let accepted = 0;
   for (let draws = 0; accepted < subsamples && draws < maxDraws; draws++) {
     const elemental = design.solveExact(drawRows(n, p, rng.int), y);
@@ -156,10 +155,10 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
       if (error instanceof StatsInputError) continue; // all weight on one x value: this candidate cannot be refined
       throw error;
     }
-    // mean ρ(r/s) is decreasing in s, so if it is ≥ b at the worst kept scale this candidate's scale is not smaller
+    // Σρ(r/s) decreases in s: if the equation's left side is ≥ b at the worst kept scale, this scale is not smaller
     const worst = best.length === bestCandidates ? best[best.length - 1].scale : Infinity;
-    if (worst < Infinity && meanRho(residuals, worst, c) >= b) continue;
-    const candidate = { beta, scale: mScale(residuals, c, b, scale) };
+    if (worst < Infinity && meanRho(residuals, worst, c, n - p) >= b) continue;
+    const candidate = { beta, scale: mScale(residuals, p, c, b, scale) };
     const at = best.findIndex((kept) => kept.scale > candidate.scale);
     best.splice(at === -1 ? best.length : at, 0, candidate);
     if (best.length > bestCandidates) best.pop();
@@ -169,48 +168,131 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
       field: 'X',
     });
   }
+  return best;
+}
 
-  let chosen: (Candidate & { iterations: number; converged: boolean }) | undefined;
-  for (const candidate of best) {
-    let { beta, scale } = candidate;
-    design.residuals(y, beta, residuals);
-    let iterations = 0;
-    let converged = false;
-    while (iterations < maxIterations) {
-      const step = refinementStep(design, y, residuals, weights, scale, c, b);
-      iterations++;
-      let diff = 0;
-      let size = 0;
-      for (let j = 0; j < p; j++) {
-        diff += (step.beta[j] - beta[j]) ** 2;
-        size += beta[j] ** 2;
-      }
-      beta = step.beta;
-      scale = step.scale;
-      if (Math.sqrt(diff / Math.max(1e-20, size)) <= tolerance) {
-        converged = true;
-        break;
-      }
+/** I-steps from `start` until the relative change in the coefficients is ≤ tolerance; then the exact M-scale. */
+function refineFully(design: LinearDesign, y: Float64Array, start: Candidate, settings: Settings): Refined {
+  const { c, b, maxIterations, tolerance } = settings;
+  const { n, p } = design;
+  const residuals = new Float64Array(n);
+  const weights = new Float64Array(n);
+  let { beta, scale } = start;
+  design.residuals(y, beta, residuals);
+  let iterations = 0;
+  let converged = false;
+  while (iterations < maxIterations) {
+    const step = refinementStep(design, y, residuals, weights, scale, c, b);
+    iterations++;
+    let diff = 0;
+    let size = 0;
+    for (let j = 0; j < p; j++) {
+      diff += (step.beta[j] - beta[j]) ** 2;
+      size += beta[j] ** 2;
     }
-    scale = mScale(residuals, c, b, scale);
-    if (!chosen || scale < chosen.scale) chosen = { beta, scale, iterations, converged };
+    beta = step.beta;
+    scale = step.scale;
+    if (Math.sqrt(diff / Math.max(1e-20, size)) <= tolerance) {
+      converged = true;
+      break;
+    }
   }
-  const result = chosen as Candidate & { iterations: number; converged: boolean };
+  return { beta, scale: mScale(residuals, p, c, b, scale), iterations, converged };
+}
+
+function smallestScale(fits: Refined[]): Refined {
+  return fits.reduce((best, fit) => (fit.scale < best.scale ? fit : best));
+}
+
+/** Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. */
+export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: SEstimatorOptions = {}): SEstimate {
+  const {
+    seed = 1,
+    subsamples = 500,
+    refinementSteps = 2,
+    bestCandidates = 5,
+    c = 1.548,
+    b = 0.5,
+    maxIterations = 200,
+    tolerance = 1e-10,
+    largeSample = 2000,
+    searchSubsetSize = 1000,
+  } = opts;
+  for (const [field, value] of [
+    ['subsamples', subsamples],
+    ['bestCandidates', bestCandidates],
+    ['maxIterations', maxIterations],
+    ['largeSample', largeSample],
+  ] as const) {
+    if (!Number.isInteger(value) || value < 1) {
+      throw new StatsInputError(`${field} must be a whole number of at least 1 (got ${value})`, { field });
+    }
+  }
+  if (!Number.isInteger(refinementSteps) || refinementSteps < 0) {
+    throw new StatsInputError(`refinementSteps must be a whole number of at least 0 (got ${refinementSteps})`, {
+      field: 'refinementSteps',
+    });
+  }
+  if (!Number.isInteger(searchSubsetSize) || searchSubsetSize < 10 * design.p) {
+    throw new StatsInputError(`searchSubsetSize must be a whole number of at least ${10 * design.p} (got ${searchSubsetSize})`, {
+      field: 'searchSubsetSize',
+    });
+  }
+  validatePositive(c, 'c');
+  if (!(b > 0 && b < 1)) throw new StatsInputError(`b must be between 0 and 1 (got ${b})`, { field: 'b' });
+  const settings: Settings = { subsamples, refinementSteps, bestCandidates, c, b, maxIterations, tolerance };
+
+  const { n, p } = design;
+  const rng = seededRandom(seed);
+  let result: Refined;
+  if (n > largeSample && searchSubsetSize < n) {
+    // large n: search and refine on a random subset, then refine the winner on all the data
+    const rows = sampleWithoutReplacement(n, searchSubsetSize, rng);
+    const subset = design.select(rows);
+    const subsetY = Float64Array.from(rows, (i) => y[i]);
+    const onSubset = smallestScale(
+      searchCandidates(subset, subsetY, settings, rng).map((candidate) => refineFully(subset, subsetY, candidate, settings)),
+    );
+    const residuals = new Float64Array(n);
+    design.residuals(y, onSubset.beta, residuals);
+    const scale = mScale(residuals, p, c, b, madScale(residuals, new Float64Array(n)));
+    result = refineFully(design, y, { beta: onSubset.beta, scale }, settings);
+  } else {
+    result = smallestScale(
+      searchCandidates(design, y, settings, rng).map((candidate) => refineFully(design, y, candidate, settings)),
+    );
+  }
+  const residuals = new Float64Array(n);
   design.residuals(y, result.beta, residuals);
   return {
-    coefficients: Array.from(result.beta),
+    coefficients: toArray(result.beta),
     scale: result.scale,
     iterations: result.iterations,
     converged: result.converged,
-    residuals: Array.from(residuals),
+    residuals: toArray(residuals),
   };
+}
+
+/** k distinct indices from 0..n−1 in increasing order (partial Fisher–Yates shuffle). */
+function sampleWithoutReplacement(n: number, k: number, rng: SeededRandom): number[] {
+  const pool = Array.from({ length: n }, (_, i) => i);
+  for (let i = 0; i < k; i++) {
+    const j = i + rng.int(n - i);
+    const t = pool[i];
+    pool[i] = pool[j];
+    pool[j] = t;
+  }
+  return pool.slice(0, k).sort((i, j) => i - j);
 }
 
 /**
  * S-estimate of regression (Rousseeuw & Yohai 1984) by fast-S (Salibian-Barrera & Yohai, JCGS 2006):
  * seeded random elemental subsamples of p rows, a few I-steps each, the best few kept (ranked by M-scale,
- * skipping a candidate when mean ρ(r/s_worst) ≥ b shows it cannot enter), each kept one refined to convergence,
+ * skipping a candidate when Σρ(r/s_worst)/(n − p) ≥ b shows it cannot enter), each kept one refined to convergence,
  * and the one with the smallest M-scale returned. Bisquare ρ with c = 1.548, b = 0.5: 50 % breakdown.
+ * Above `largeSample` (2,000) samples, the subsampling and ranking run on a seeded random subset of
+ * `searchSubsetSize` (1,000) samples, as the large-n variant of fast-S does with subgroups, and the best fit there is
+ * refined to convergence on all the data.
  * The same seed always gives the same result.
  *
  * @example

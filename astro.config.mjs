@@ -14,7 +14,13 @@ export default defineConfig({
   env: {
     schema: {
       DATABASE_URL: envField.string({ context: 'server', access: 'secret' }),
-      PUBLIC_BASE_URL: envField.string({ context: 'server', access: 'public', optional: true }),
+      BETTER_AUTH_SECRET: envField.string({ context: 'server', access: 'secret', min: 32 }),
+      /** The address people reach the app at, used in links inside e-mails. */
+      PUBLIC_BASE_URL: envField.string({ context: 'server', access: 'public', default: 'http://127.0.0.1:4321' }),
+      SMTP_URL: envField.string({ context: 'server', access: 'secret', default: 'smtp://127.0.0.1:54325' }),
+      MAIL_FROM: envField.string({ context: 'server', access: 'public', default: 'Biaswise <no-reply@biaswise.invalid>' }),
+      /** Folder where the local SMTP fake keeps messages; when set, administrators get a mailbox page. */
+      MAIL_CAPTURE_DIR: envField.string({ context: 'server', access: 'public', optional: true }),
     },
   },
 });

@@ -1,4 +1,6 @@
 /** Where the project keeps its local services: one place, so start, seed, stop and the tests agree. */
+import { randomBytes } from 'node:crypto';
+import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { ensureCluster } from './postgres';
 
@@ -14,4 +16,15 @@ export async function appDatabaseUrl(): Promise<string> {
   if (process.env.DATABASE_URL) return process.env.DATABASE_URL;
   const cluster = await ensureCluster({ dataDir: APP_CLUSTER_DIR, port: APP_DB_PORT, database: 'biaswise' });
   return cluster.url;
+}
+
+/** BETTER_AUTH_SECRET when set; otherwise one generated once and kept in .data/ (never committed). */
+export function authSecret(): string {
+  if (process.env.BETTER_AUTH_SECRET) return process.env.BETTER_AUTH_SECRET;
+  const file = `${DATA_DIR}/auth-secret`;
+  if (!existsSync(file)) {
+    mkdirSync(DATA_DIR, { recursive: true });
+    writeFileSync(file, randomBytes(32).toString('base64url'), { mode: 0o600 });
+  }
+  return readFileSync(file, 'utf8').trim();
 }

@@ -1,0 +1,59 @@
+import { defineMiddleware } from 'astro:middleware';
+import { getAuth } from './server/auth';
+import { labBySlug, laboratoryForToken, membershipsOf } from './server/laboratories';
+import { notFound, problemResponse, Problem, unauthenticated } from './server/problem';
+
+const LAB_ROUTE = /^\/(api\/)?labs\/([^/]+)/;
+
+/** Session → locals, and the laboratory in the URL checked against the caller's memberships. */
+export const onRequest = defineMiddleware(async (context, next) => {
+  const { locals, url, request } = context;
+  locals.user = null;
+  locals.session = null;
+  locals.memberships = [];
+  locals.lab = null;
+  locals.role = null;
+  locals.viaApiToken = false;
+
+  const path = url.pathname;
+  if (path.startsWith('/_astro/') || path.startsWith('/api/auth/') || path === '/api/health' || path === '/favicon.svg') {
+    return next();
+  }
+
+  const labRoute = path.match(LAB_ROUTE);
+  const isApi = path.startsWith('/api/');
+  const bearer = request.headers.get('authorization')?.match(/^Bearer\s+(\S+)$/i)?.[1];
+
+  if (bearer && labRoute && isApi) {
+    const tokenLab = await laboratoryForToken(bearer);
+    if (!tokenLab) return problemResponse(new Problem(401, 'Invalid token', 'The API token is unknown or was revoked.'));
+    const lab = await labBySlug(labRoute[2]);
+    if (!lab || lab.id !== tokenLab) return problemResponse(notFound('laboratory'));
+    locals.lab = { id: lab.id, slug: lab.slug, name: lab.name };
+    locals.viaApiToken = true;
+    return next();
+  }
+
+  const current = await getAuth().api.getSession({ headers: request.headers });
+  if (current) {
+    locals.user = current.user;
+    locals.session = current.session;
+    locals.memberships = await membershipsOf(current.user.id);
+  }
+
+  if (labRoute) {
+    if (!locals.user) {
+      if (isApi) return problemResponse(unauthenticated());
+      return context.redirect(`/sign-in?next=${encodeURIComponent(path + url.search)}`);
+    }
+    const membership = locals.memberships.find((m) => m.slug === decodeURIComponent(labRoute[2]));
+    if (!membership) {
+      // Another laboratory's address looks exactly like one that does not exist.
+      if (isApi) return problemResponse(notFound('laboratory'));
+      return context.rewrite('/404');
+    }
+    locals.lab = { id: membership.laboratoryId, slug: membership.slug, name: membership.name };
+    locals.role = membership.role;
+  }
+  return next();
+});

@@ -1,0 +1,62 @@
+/** Keeps endpoints thin: access checks, and every thrown Problem or zod error answered as problem+json. */
+import type { APIContext, APIRoute } from 'astro';
+import { z } from 'zod';
+import { can, type Action } from './permissions';
+import { fieldErrorsFromZod, forbidden, invalid, Problem, problemResponse, unauthenticated } from './problem';
+
+const ACTION_WORDS: Record<Action, string> = {
+  read: 'read this laboratory',
+  'protocol.edit': 'edit protocols',
+  'protocol.approve': 'approve protocols',
+  'study.open': 'open studies',
+  'results.enter': 'enter results',
+  'sample.exclude': 'exclude samples',
+  'analysis.run': 'run analyses',
+  'study.submit': 'submit studies for sign-off',
+  'study.sign': 'sign studies',
+  'dossier.export': 'export the study dossier',
+  'members.manage': 'manage members',
+  'tokens.manage': 'manage API tokens',
+};
+
+export interface LabContext {
+  lab: { id: string; slug: string; name: string };
+  user: NonNullable<App.Locals['user']> | null;
+}
+
+/**
+ * The laboratory of the request, after checking that the caller may do `action` there.
+ * API tokens may only enter results.
+ */
+export function requireLab(locals: App.Locals, action: Action): LabContext {
+  if (!locals.lab) throw unauthenticated();
+  if (locals.viaApiToken) {
+    if (action !== 'results.enter') throw forbidden(ACTION_WORDS[action] + ' with an API token');
+    return { lab: locals.lab, user: null };
+  }
+  if (!locals.user) throw unauthenticated();
+  if (!can(locals.role, action)) throw forbidden(ACTION_WORDS[action]);
+  return { lab: locals.lab, user: locals.user };
+}
+
+/** The signed-in person, for endpoints outside a laboratory. */
+export function requireUser(locals: App.Locals) {
+  if (!locals.user) throw unauthenticated();
+  return locals.user;
+}
+
+export const json = (body: unknown, status = 200) =>
+  new Response(JSON.stringify(body), { status, headers: { 'content-type': 'application/json', 'cache-control': 'no-store' } });
+
+export function endpoint(handler: (context: APIContext) => Promise<Response>): APIRoute {
+  return async (context) => {
+    try {
+      return await handler(context);
+    } catch (error) {
+      if (error instanceof Problem) return problemResponse(error);
+      if (error instanceof z.ZodError) return problemResponse(invalid('The data is not valid.', fieldErrorsFromZod(error)));
+      console.error(error);
+      return problemResponse(new Problem(500, 'Server error', 'Something went wrong on the server; nothing was saved.'));
+    }
+  };
+}

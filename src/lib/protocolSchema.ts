@@ -4,6 +4,7 @@
  * Refinements put each problem on the field that causes it, so the form can show it beside that field.
  */
 import { z } from 'zod';
+import { StatsInputError } from './stats/errors';
 import type { MethodKey } from './stats/types';
 
 /**
@@ -65,6 +66,21 @@ export const DISCIPLINES = [
   'blood gases',
   'urinalysis',
 ] as const;
+
+/**
+ * Scales on which a template spreads the planned samples over its measuring interval.
+ *
+ * @example
+ * intervalThirds(0.01, 100, SPREAD_SCALES[1]); // log-scale thirds
+ */
+export const SPREAD_SCALES = ['linear', 'log'] as const;
+/**
+ * One spread scale.
+ *
+ * @example
+ * const scale: SpreadScale = 'log';
+ */
+export type SpreadScale = (typeof SPREAD_SCALES)[number];
 
 /** Seeds are 32-bit, as the engine's Mersenne Twister takes them. */
 const MAX_SEED = 4294967295;
@@ -231,9 +247,18 @@ export const analyteTemplateSchema = z
       method: z.enum(REGRESSION_METHODS, { error: `Choose one of: ${REGRESSION_METHODS.join(', ')}.` }),
       reason: z.string().trim().min(1, 'Say why this regression suits the analyte.'),
     }),
+    sampleSpread: z.object({
+      scale: z.enum(SPREAD_SCALES, { error: "Spread samples on a 'linear' or 'log' scale." }),
+      reason: z.string().trim().min(1, 'Say why this scale suits where patient results lie.'),
+    }),
     notes: z.string().optional(),
   })
-  .superRefine((template, ctx) => refineDecisionLevels(template.decisionLevels, template.measuringInterval, ctx));
+  .superRefine((template, ctx) => {
+    refineDecisionLevels(template.decisionLevels, template.measuringInterval, ctx);
+    if (template.sampleSpread.scale === 'log' && !(template.measuringInterval.low > 0)) {
+      ctx.addIssue({ code: 'custom', path: ['sampleSpread', 'scale'], message: 'A log-scale spread needs a measuring interval that starts above 0.' });
+    }
+  });
 /**
  * A parsed analyte template.
  *
@@ -495,20 +520,21 @@ export function protocolWarnings(settings: ProtocolSettings): ProtocolWarning[] 
   return warnings;
 }
 
-
 /**
- * Splits a measuring interval into low, middle and high thirds with a third of the samples each.
- * Boundaries are equal steps on a linear scale when high/low ≤ 10, otherwise on a log scale: for analytes
- * spanning decades (TSH, hCG) linear thirds would put almost every decision level in the low third.
- * Call it with a valid interval (low < high).
+ * Splits a measuring interval low < high into low, middle and high thirds with a third of the samples each,
+ * at equal steps on a linear scale or, for analytes whose results span decades (TSH, hCG), on a log scale,
+ * where linear thirds would put almost every patient and decision level in the low third.
  *
  * @example
- * intervalThirds(10, 500);   // boundaries 10, 173, 337, 500
- * intervalThirds(0.01, 100); // boundaries 0.01, 0.215, 4.64, 100
+ * intervalThirds(10, 500, 'linear'); // boundaries 10, 173, 337, 500
+ * intervalThirds(0.01, 100, 'log');  // boundaries 0.01, 0.215, 4.64, 100
  */
-export function intervalThirds(low: number, high: number): IntervalPart[] {
-  const logScale = low > 0 && high / low > 10;
-  const exact = [1, 2].map((step) => (logScale ? low * (high / low) ** (step / 3) : low + ((high - low) * step) / 3));
+export function intervalThirds(low: number, high: number, scale: SpreadScale): IntervalPart[] {
+  if (!(low < high)) throw new StatsInputError(`The interval's low end (${low}) must be below its high end (${high}).`, { field: 'low' });
+  if (scale === 'log' && !(low > 0)) {
+    throw new StatsInputError(`Log-scale thirds need a low end above 0 (got ${low}).`, { field: 'low' });
+  }
+  const exact = [1, 2].map((step) => (scale === 'log' ? low * (high / low) ** (step / 3) : low + ((high - low) * step) / 3));
   // Tidy numbers for the designer: the fewest significant figures (3 or more) that keep the parts in order.
   let inner = exact;
   for (let digits = 3; digits <= 15; digits++) {
@@ -525,8 +551,9 @@ export function intervalThirds(low: number, high: number): IntervalPart[] {
 }
 
 /**
- * Settings shared by every new protocol. 40 samples over 5 days, measured once, spread in thirds over the
- * measuring interval: the usual minimum of EP09 practice (from memory). Singlicate measurement keeps the
+ * Settings shared by every new protocol. 40 samples over 5 days, measured once: the usual minimum of EP09
+ * practice (from memory); a template adds thirds of its measuring interval on the scale it names, so that
+ * samples cover the interval rather than cluster where most patients are. Singlicate measurement keeps the
  * workload down, so λ starts as given = 1 (equal error variances) until the lab knows both procedures'
  * imprecision. Huber ψ from OLS is the convex, well-behaved robust default; ESD at α = 0.05 with at most
  * 2.5 % outliers and 2,000 bootstrap resamples follow STATISTICS.md. The seed is fixed so the default is
@@ -545,7 +572,8 @@ function commonSettings(): Omit<ProtocolSettings, 'title' | 'templateId' | 'anal
 }
 
 /**
- * Protocol settings built from a template: its analyte, units and measuring interval, its decision levels
+ * Protocol settings built from a template: its analyte, units and measuring interval split into thirds
+ * on the template's spread scale, its decision levels
  * each with the level's own allowable bias or else the template's, its suggested regression as primary
  * estimator (with ψ and start matching when that is an M-estimator), and the common plan described above.
  *
@@ -567,7 +595,7 @@ export function defaultSettingsFromTemplate(template: AnalyteTemplate): Protocol
     title: `${template.name} method comparison`,
     templateId: template.id,
     analyte: { name: template.name, units: template.units.conventional, measuringInterval: { low, high } },
-    samplePlan: { ...common.samplePlan, intervalParts: intervalThirds(low, high) },
+    samplePlan: { ...common.samplePlan, intervalParts: intervalThirds(low, high, template.sampleSpread.scale) },
     decisionLevels: template.decisionLevels.map((level) => ({
       value: level.value,
       meaning: level.meaning,

@@ -13,6 +13,7 @@ import {
   type ProtocolSettings,
 } from '../../../src/lib/protocolSchema';
 import type { AllowableLimit } from '../../../src/lib/stats/allowable';
+import { StatsInputError } from '../../../src/lib/stats/errors';
 
 const protocolsDir = fileURLToPath(new URL('../../../protocols/', import.meta.url));
 const templateFiles = readdirSync(protocolsDir).filter((file) => file.endsWith('.json'));
@@ -149,6 +150,13 @@ describe('analyteTemplateSchema refusals', () => {
     expect(issuePaths(analyteTemplateSchema.safeParse(template))).toEqual(['decisionLevels.1.allowableBias.absolute']);
   });
 
+  it('refuses a log-scale spread over an interval that starts at 0', () => {
+    const template = validGlucose();
+    template.measuringInterval.low = 0;
+    template.sampleSpread.scale = 'log';
+    expect(issuePaths(analyteTemplateSchema.safeParse(template))).toEqual(['sampleSpread.scale']);
+  });
+
   it('refuses a decision level outside the measuring interval and a missing source', () => {
     const template = validGlucose();
     template.decisionLevels[0].value = 5;
@@ -187,12 +195,12 @@ describe('defaultSettingsFromTemplate', () => {
 });
 
 describe('intervalThirds', () => {
-  it('splits a narrow interval into equal widths and a wide one into equal ratios, a third each', () => {
-    const narrow = intervalThirds(100, 180);
+  it('splits on a linear scale into equal widths and on a log scale into equal ratios, a third each', () => {
+    const narrow = intervalThirds(100, 180, 'linear');
     const widths = narrow.map((part) => part.high - part.low);
     // Boundaries are rounded to 3 significant figures, so widths agree to about 1 % of the interval.
     for (const width of widths) expect(Math.abs(width - 80 / 3)).toBeLessThan(0.8);
-    const wide = intervalThirds(0.01, 100);
+    const wide = intervalThirds(0.01, 100, 'log');
     const ratios = wide.map((part) => part.high / part.low);
     for (const ratio of ratios) expect(Math.log10(ratio)).toBeCloseTo(4 / 3, 2);
     for (const parts of [narrow, wide]) {
@@ -202,10 +210,16 @@ describe('intervalThirds', () => {
   });
 
   it('keeps the parts in order when 3 significant figures cannot tell the boundaries apart', () => {
-    const parts = intervalThirds(1.0001, 1.0004);
+    const parts = intervalThirds(1.0001, 1.0004, 'linear');
     parts.forEach((part) => expect(part.low).toBeLessThan(part.high));
     expect(parts[0].low).toBe(1.0001);
     expect(parts[2].high).toBe(1.0004);
+  });
+
+  it('refuses a log scale from 0 and an empty interval, naming the low end', () => {
+    expect(() => intervalThirds(0, 100, 'log')).toThrow(StatsInputError);
+    expect(() => intervalThirds(0, 100, 'log')).toThrow(/above 0/);
+    expect(() => intervalThirds(5, 5, 'linear')).toThrow(/below its high end/);
   });
 });
 

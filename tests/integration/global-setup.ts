@@ -1,14 +1,16 @@
 /**
- * A throwaway PostgreSQL cluster for the integration tests: created on a free port in .data/, migrated,
- * handed to the tests through DATABASE_URL, and removed at the end.
+ * The integration stack: a throwaway PostgreSQL cluster on a free port in .data/, migrated, and the SMTP
+ * capture, handed to the tests through the same environment variables the app reads; all removed at the end.
  */
+import { rmSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
 import { DATA_DIR } from '../../scripts/local';
+import { startSmtpFake } from '../../scripts/smtp-fake';
 
-export async function freePort(): Promise<number> {
+async function freePort(): Promise<number> {
   return new Promise((resolve, reject) => {
     const server = createServer();
     server.once('error', reject);
@@ -21,10 +23,23 @@ export async function freePort(): Promise<number> {
 
 export default async function setup() {
   const dataDir = `${DATA_DIR}/test-integration-${process.pid}`;
+  const mailDir = `${DATA_DIR}/test-integration-mail-${process.pid}`;
   const cluster = await ensureCluster({ dataDir, port: await freePort(), database: 'biaswise_test' });
   const db = createDatabase(cluster.url, 2);
   await applyMigrations(db);
   await db.$client.end();
-  process.env.DATABASE_URL = cluster.url;
-  return () => removeCluster(dataDir);
+  const smtp = await startSmtpFake({ port: await freePort(), dir: mailDir });
+
+  Object.assign(process.env, {
+    DATABASE_URL: cluster.url,
+    BETTER_AUTH_SECRET: 'integration-only-secret-0123456789abcdefgh',
+    PUBLIC_BASE_URL: 'http://127.0.0.1:4321',
+    SMTP_URL: `smtp://127.0.0.1:${smtp.port}`,
+    MAIL_CAPTURE_DIR: mailDir,
+  });
+  return async () => {
+    await smtp.close();
+    removeCluster(dataDir);
+    rmSync(mailDir, { recursive: true, force: true });
+  };
 }

@@ -1,0 +1,628 @@
+import { StatsInputError } from './errors';
+import { normalQuantile } from './distributions';
+import { seededRandom, type SeededRandom } from './random';
+import { validateConfidence } from './deming';
+import { validatePairs } from './validate';
+import type { LineFit } from './types';
+
+export interface PassingBablokOptions {
+  /** Confidence level of the intervals, in (0, 1). */
+  confidence?: number;
+  /** Significance level of the CUSUM linearity test. */
+  linearityAlpha?: number;
+  /**
+   * 'direct' lists every pairwise slope (O(n²) memory), 'selection' finds the needed order
+   * statistics without listing them (O(n) memory); 'auto' uses 'direct' up to 200 pairs.
+   * Both give identical results.
+   */
+  algorithm?: 'auto' | 'direct' | 'selection';
+}
+
+export interface CusumTest {
+  /** max |cumulative sum| of the residual scores, ordered along the line. */
+  statistic: number;
+  /** h_α·√(L + 1), L the number of points below the line. */
+  critical: number;
+  /** True when the statistic does not exceed the critical value. */
+  linear: boolean;
+}
+
+export type PassingBablokFit = LineFit & {
+  /** K: the number of slopes below −1, by which the median is shifted. */
+  shift: number;
+  /** N: the number of slopes used (identical points and slopes of exactly −1 left out). */
+  slopeCount: number;
+  cusum: CusumTest;
+  /** Pearson correlation of x and y (the method assumes positively related procedures). */
+  pearsonR?: number;
+};
+
+/** Largest n for which 'auto' lists every slope. */
+const DIRECT_LIMIT = 200;
+
+/**
+ * Passing–Bablok regression (Passing & Bablok, J Clin Chem Clin Biochem 1983).
+ * Slopes S_ij = (y_j − y_i)/(x_j − x_i) over all pairs; pairs of identical points are skipped,
+ * slopes of exactly −1 dropped, pairs with equal x and different y count as +∞. K = #(S < −1);
+ * b is the median of the N slopes shifted by K, a = median(y − b·x). CI of b: the slopes of rank
+ * M1 + K and M2 + K, M1 = round((N − C)/2), M2 = N − M1 + 1, C = z_{1−α/2}·√(n(n−1)(2n+5)/18);
+ * CI of a: [median(y − b_hi·x), median(y − b_lo·x)].
+ * Shifting by K amounts to ranking the slopes below −1 after all the others; ranks that land
+ * among them (or on +∞) mean the method does not apply, and raise StatsInputError.
+ * A vertical pair's sign cannot depend on the order of the data, so it is taken from the pair
+ * ordered by (x, y), which makes it +∞; as shifted ranks never reach slopes below −1, −∞ would give the same result.
+ *
+ * The needed order statistics are found without listing the O(n²) slopes (randomized slope
+ * selection: Matoušek, Inf Process Lett 1991; Dillencourt, Mount & Netanyahu, Int J Comput Geom
+ * Appl 1992): the number of slopes below t is the number of inversions of y − t·x in x order,
+ * counted by merge sort; random slopes between two bounds are drawn as random inversions; the bounds
+ * close in on the wanted ranks until the few slopes between them can be listed and sorted.
+ * Floating-point care: bounds are widened by a margin far above rounding error and the selected
+ * slope must lie well inside them, so the result equals sorting every slope computed as above.
+ *
+ * Linearity: CUSUM test of the paper (scores and bound from memory of Passing & Bablok 1983).
+ * Points above the line score √(L/l), below −√(l/L), on it 0 (l above, L below); ordered along the
+ * line; the statistic is max |cumulative sum|, rejected above h_α·√(L + 1) with h_α the Kolmogorov
+ * quantile, here its asymptotic form √(−ln(α/2)/2) (1.36 at α = 0.05). For a known line the sum is
+ * √(lL) times a two-sample Kolmogorov–Smirnov distance, whose bound would be h_α·√(l + L); fitting
+ * the line balances the signs along it, and the smaller bound √(L + 1) keeps the level near α.
+ *
+ * @example
+ * const fit = fitPassingBablok([1, 2, 3, 4, 5, 6], [3.1, 4.9, 7.2, 9.0, 10.8, 13.1]);
+ * fit.slope; // ≈ 1.98
+ */
+export function fitPassingBablok(
+  x: readonly number[],
+  y: readonly number[],
+  options: PassingBablokOptions = {},
+): PassingBablokFit {
+  const { confidence = 0.95, linearityAlpha = 0.05, algorithm = 'auto' } = options;
+  validatePairs(x, y);
+  validateConfidence(confidence);
+  if (!Number.isFinite(linearityAlpha) || linearityAlpha <= 0 || linearityAlpha >= 1) {
+    throw new StatsInputError(`linearityAlpha must be between 0 and 1 (got ${String(linearityAlpha)})`, { field: 'linearityAlpha' });
+  }
+  if (algorithm !== 'auto' && algorithm !== 'direct' && algorithm !== 'selection') {
+    throw new StatsInputError(`algorithm must be 'auto', 'direct' or 'selection' (got ${String(algorithm)})`, { field: 'algorithm' });
+  }
+  const n = x.length;
+  const points = sortPoints(x, y);
+  const slopes: SlopeSet =
+    algorithm === 'direct' || (algorithm === 'auto' && n <= DIRECT_LIMIT) ? new ListedSlopes(points) : new SelectedSlopes(points);
+
+  const shift = slopes.belowMinusOne;
+  const slopeCount = slopes.finiteCount - slopes.equalMinusOne + slopes.verticalCount;
+  if (slopeCount === 0) throw new StatsInputError('every pairwise slope is exactly −1, so Passing–Bablok has no slopes to use', { field: 'y' });
+
+  const z = normalQuantile((1 + confidence) / 2);
+  const spread = z * Math.sqrt((n * (n - 1) * (2 * n + 5)) / 18);
+  const m1 = Math.round((slopeCount - spread) / 2);
+  if (m1 < 1) {
+    throw new StatsInputError(
+      `too few slopes for a ${confidence} confidence interval: with n = ${n} and N = ${slopeCount} slopes, ` +
+        `M1 = round((N − C)/2) = ${m1} with C = ${spread.toFixed(3)}`,
+      { field: 'x' },
+    );
+  }
+  const m2 = slopeCount - m1 + 1;
+  const medianRanks = slopeCount % 2 === 1 ? [(slopeCount + 1) / 2] : [slopeCount / 2, slopeCount / 2 + 1];
+  const values = shiftedRankValues(slopes, [...medianRanks, m1, m2]);
+  const slope = medianRanks.length === 1 ? values.get(medianRanks[0])! : (values.get(medianRanks[0])! + values.get(medianRanks[1])!) / 2;
+  const slopeLow = values.get(m1)!;
+  const slopeHigh = values.get(m2)!;
+  if (!Number.isFinite(slope)) {
+    throw new StatsInputError('the median slope is a vertical pair: too many samples share the same x value', { field: 'x' });
+  }
+  if (!Number.isFinite(slopeHigh)) {
+    throw new StatsInputError('the upper confidence bound of the slope is a vertical pair: too many samples share the same x value', {
+      field: 'x',
+    });
+  }
+  const intercept = medianOffset(points, slope);
+  const interceptCI: [number, number] = [medianOffset(points, slopeHigh), medianOffset(points, slopeLow)];
+  return {
+    method: 'passingBablok',
+    n,
+    intercept,
+    slope,
+    interceptCI,
+    slopeCI: [slopeLow, slopeHigh],
+    confidence,
+    shift,
+    slopeCount,
+    cusum: cusumTest(points, intercept, slope, linearityAlpha),
+    pearsonR: pearson(points),
+  };
+}
+
+interface Points {
+  /** Sorted by x, ties by y. */
+  x: Float64Array;
+  y: Float64Array;
+}
+
+function sortPoints(x: readonly number[], y: readonly number[]): Points {
+  const n = x.length;
+  const order = Int32Array.from({ length: n }, (_, i) => i);
+  const buffer = new Int32Array(n);
+  // Two stable passes: by y, then by x, give the (x, y) order.
+  mergeSort(order, Float64Array.from(y), buffer, null, null);
+  mergeSort(order, Float64Array.from(x), buffer, null, null);
+  return { x: Float64Array.from(order, (i) => x[i]), y: Float64Array.from(order, (i) => y[i]) };
+}
+
+/** The slope between the points of sorted indices i < j with x_i < x_j, computed the one way used everywhere. */
+function pairSlope(points: Points, i: number, j: number): number {
+  return (points.y[j] - points.y[i]) / (points.x[j] - points.x[i]);
+}
+
+/** The finite pairwise slopes (pairs with different x), with counts, and their order statistics. */
+interface SlopeSet {
+  finiteCount: number;
+  verticalCount: number;
+  belowMinusOne: number;
+  equalMinusOne: number;
+  /** Values of the finite slopes of the given ranks (1-based, ascending order). */
+  select(ranks: number[]): Map<number, number>;
+}
+
+/** Pairs with equal x and different y (vertical) and pairs with different x (finite), from the (x, y) order. */
+function countPairKinds(points: Points): { finite: number; vertical: number } {
+  const n = points.x.length;
+  let sameX = 0;
+  let identical = 0;
+  for (let start = 0; start < n; ) {
+    let end = start + 1;
+    while (end < n && points.x[end] === points.x[start]) end++;
+    sameX += ((end - start) * (end - start - 1)) / 2;
+    for (let s = start; s < end; ) {
+      let e = s + 1;
+      while (e < end && points.y[e] === points.y[s]) e++;
+      identical += ((e - s) * (e - s - 1)) / 2;
+      s = e;
+    }
+    start = end;
+  }
+  return { finite: (n * (n - 1)) / 2 - sameX, vertical: sameX - identical };
+}
+
+/** Direct path: every finite slope listed and sorted. */
+class ListedSlopes implements SlopeSet {
+  readonly finiteCount: number;
+  readonly verticalCount: number;
+  readonly belowMinusOne: number;
+  readonly equalMinusOne: number;
+  private readonly sorted: Float64Array;
+
+  constructor(points: Points) {
+    const kinds = countPairKinds(points);
+    this.finiteCount = kinds.finite;
+    this.verticalCount = kinds.vertical;
+    const n = points.x.length;
+    const all = new Float64Array(kinds.finite);
+    let k = 0;
+    for (let i = 0; i < n; i++) {
+      for (let j = i + 1; j < n; j++) {
+        if (points.x[j] !== points.x[i]) all[k++] = pairSlope(points, i, j);
+      }
+    }
+    all.sort();
+    this.sorted = all;
+    let below = 0;
+    let equal = 0;
+    for (let i = 0; i < all.length && all[i] <= -1; i++) {
+      if (all[i] < -1) below++;
+      else equal++;
+    }
+    this.belowMinusOne = below;
+    this.equalMinusOne = equal;
+  }
+
+  select(ranks: number[]): Map<number, number> {
+    return new Map(ranks.map((k) => [k, this.sorted[k - 1]]));
+  }
+}
+
+/**
+ * Values of the shifted ranks: ranking the N kept slopes with those below −1 moved after the
+ * others (equivalent to the paper's rank + K on the ascending list).
+ */
+function shiftedRankValues(slopes: SlopeSet, ranks: number[]): Map<number, number> {
+  const aboveMinusOne = slopes.finiteCount - slopes.belowMinusOne - slopes.equalMinusOne;
+  const finiteRanks: number[] = [];
+  for (const m of ranks) {
+    if (m > aboveMinusOne + slopes.verticalCount) {
+      throw new StatsInputError(
+        `${slopes.belowMinusOne} of the ${aboveMinusOne + slopes.verticalCount + slopes.belowMinusOne} slopes are below −1, ` +
+          `so the shifted rank ${m} + K falls outside the slopes: Passing–Bablok needs positively related procedures`,
+        { field: 'y' },
+      );
+    }
+    if (m <= aboveMinusOne) finiteRanks.push(slopes.belowMinusOne + slopes.equalMinusOne + m);
+  }
+  const finite = slopes.select([...new Set(finiteRanks)].sort((a, b) => a - b));
+  return new Map(ranks.map((m) => [m, m <= aboveMinusOne ? finite.get(slopes.belowMinusOne + slopes.equalMinusOne + m)! : Infinity]));
+}
+
+/** median(y − b·x). */
+function medianOffset(points: Points, slope: number): number {
+  const n = points.x.length;
+  const offsets = new Float64Array(n);
+  for (let i = 0; i < n; i++) offsets[i] = points.y[i] - slope * points.x[i];
+  offsets.sort();
+  return n % 2 === 1 ? offsets[(n - 1) / 2] : (offsets[n / 2 - 1] + offsets[n / 2]) / 2;
+}
+
+function cusumTest(points: Points, intercept: number, slope: number, alpha: number): CusumTest {
+  const n = points.x.length;
+  const sign = new Int8Array(n);
+  let above = 0;
+  let below = 0;
+  for (let i = 0; i < n; i++) {
+    const residual = points.y[i] - intercept - slope * points.x[i];
+    sign[i] = residual > 0 ? 1 : residual < 0 ? -1 : 0;
+    if (residual > 0) above++;
+    else if (residual < 0) below++;
+  }
+  const h = Math.sqrt(-Math.log(alpha / 2) / 2);
+  const critical = h * Math.sqrt(below + 1);
+  if (above === 0 || below === 0) return { statistic: 0, critical, linear: true };
+  // Position along the line: projection on the direction (1, b); ties keep the (x, y) order.
+  const position = new Float64Array(n);
+  for (let i = 0; i < n; i++) position[i] = points.x[i] + slope * points.y[i];
+  const order = Int32Array.from({ length: n }, (_, i) => i);
+  mergeSort(order, position, new Int32Array(n), null, null);
+  const up = Math.sqrt(below / above);
+  const down = Math.sqrt(above / below);
+  let sum = 0;
+  let statistic = 0;
+  for (const i of order) {
+    sum += sign[i] > 0 ? up : sign[i] < 0 ? -down : 0;
+    statistic = Math.max(statistic, Math.abs(sum));
+  }
+  return { statistic, critical, linear: statistic <= critical };
+}
+
+function pearson(points: Points): number | undefined {
+  const n = points.x.length;
+  let mx = 0;
+  let my = 0;
+  for (let i = 0; i < n; i++) {
+    mx += points.x[i];
+    my += points.y[i];
+  }
+  mx /= n;
+  my /= n;
+  let sxx = 0;
+  let syy = 0;
+  let sxy = 0;
+  for (let i = 0; i < n; i++) {
+    const dx = points.x[i] - mx;
+    const dy = points.y[i] - my;
+    sxx += dx * dx;
+    syy += dy * dy;
+    sxy += dx * dy;
+  }
+  return syy === 0 ? undefined : sxy / Math.sqrt(sxx * syy);
+}
+
+// ---------------------------------------------------------------------------------------------
+// Selection path.
+
+/**
+ * Order statistics of the finite slopes without listing them. A slope bound t is represented by
+ * the key y − t·x of every point (t = ±∞ by the limiting orders); the pairs between bounds lo < hi
+ * are the strict inversions of the hi keys in the (stable) order of the lo keys.
+ */
+class SelectedSlopes implements SlopeSet {
+  readonly finiteCount: number;
+  readonly verticalCount: number;
+  readonly belowMinusOne: number;
+  readonly equalMinusOne: number;
+  private readonly points: Points;
+  private readonly n: number;
+  private readonly rng: SeededRandom;
+  /** Scale of rounding error in slope units, per unit of |t|, and its floor. */
+  private readonly marginScale: number;
+  private readonly marginPerSlope: number;
+  private readonly listBudget: number;
+  private readonly sampleSize: number;
+  // Scratch buffers, reused by every pass.
+  private readonly keyLo: Float64Array;
+  private readonly keyHi: Float64Array;
+  private readonly sequence: Int32Array;
+  private readonly work: Int32Array;
+  private readonly buffer: Int32Array;
+
+  constructor(points: Points) {
+    this.points = points;
+    const n = points.x.length;
+    this.n = n;
+    const kinds = countPairKinds(points);
+    this.finiteCount = kinds.finite;
+    this.verticalCount = kinds.vertical;
+    this.rng = seededRandom(0x5eed + n);
+    let maxAbsX = 0;
+    let maxAbsY = 0;
+    for (let i = 0; i < n; i++) {
+      maxAbsX = Math.max(maxAbsX, Math.abs(points.x[i]));
+      maxAbsY = Math.max(maxAbsY, Math.abs(points.y[i]));
+    }
+    const rangeX = points.x[n - 1] - points.x[0];
+    // Rounding moves y − t·x by about 1e-16·(|y| + |t||x|); 1e-6 of that scale over the x range
+    // is far above it for any pair whose x values differ by more than ~1e-9 of the range.
+    this.marginScale = (1e-6 * maxAbsY) / rangeX;
+    this.marginPerSlope = (1e-6 * maxAbsX) / rangeX;
+    this.listBudget = Math.max(4 * n, 20_000);
+    this.sampleSize = Math.max(2 * n, 10_000);
+    this.keyLo = new Float64Array(n);
+    this.keyHi = new Float64Array(n);
+    this.sequence = new Int32Array(n);
+    this.work = new Int32Array(n);
+    this.buffer = new Int32Array(n);
+
+    const lo = -1 - this.margin(-1);
+    const hi = -1 + this.margin(-1);
+    let below = this.countBelow(lo);
+    let equal = 0;
+    this.visitBetween(lo, hi, (i, j) => {
+      const s = pairSlope(points, i, j);
+      if (s < -1) below++;
+      else if (s === -1) equal++;
+    });
+    this.belowMinusOne = below;
+    this.equalMinusOne = equal;
+  }
+
+  select(ranks: number[]): Map<number, number> {
+    const result = new Map<number, number>();
+    for (let g = 0; g < ranks.length; ) {
+      let end = g + 1;
+      while (end < ranks.length && ranks[end] - ranks[end - 1] <= 1) end++;
+      this.selectRange(ranks[g], ranks[end - 1], result);
+      g = end;
+    }
+    return result;
+  }
+
+  private margin(t: number): number {
+    return this.marginScale + this.marginPerSlope * Math.abs(t);
+  }
+
+  /** Finds the slopes of ranks kLow..kHigh (1-based, close together) into `out`. */
+  private selectRange(kLow: number, kHigh: number, out: Map<number, number>): void {
+    let lo = -Infinity;
+    let hi = Infinity;
+    let countLo = 0;
+    let countHi = this.finiteCount;
+    let sampleSize = this.sampleSize;
+    for (let round = 0; round < 60; round++) {
+      const between = countHi - countLo;
+      if (between <= this.listBudget && this.listAndPick(lo, hi, kLow, kHigh, out)) return;
+      const sample = this.sampleBetween(lo, hi, Math.min(sampleSize, between));
+      const s = sample.length;
+      const fracLow = (kLow - countLo) / between;
+      const fracHigh = (kHigh - countLo) / between;
+      const iLow = Math.floor(fracLow * s - 3 * Math.sqrt(s * fracLow * (1 - fracLow)) - 3);
+      const iHigh = Math.ceil(fracHigh * s + 3 * Math.sqrt(s * fracHigh * (1 - fracHigh)) + 3);
+      if (iLow >= 0 && iHigh < s && sample[iLow] === sample[iHigh]) {
+        // A tied slope value fills the window: settle the ranks that fall on it directly.
+        const tie = this.tieRanks(sample[iLow]);
+        if (kLow > tie.below && kHigh <= tie.below + tie.equal) {
+          for (let k = kLow; k <= kHigh; k++) out.set(k, sample[iLow]);
+          return;
+        }
+        if (kLow < kHigh) {
+          this.selectRange(kLow, kLow, out);
+          this.selectRange(kHigh, kHigh, out);
+          return;
+        }
+        if (kHigh <= tie.below) {
+          hi = tie.lo;
+          countHi = tie.countLo;
+        } else {
+          lo = tie.hi;
+          countLo = tie.countHi;
+        }
+        continue;
+      }
+      const newLo = iLow >= 1 ? (sample[iLow - 1] + sample[iLow]) / 2 : lo;
+      const newHi = iHigh <= s - 1 ? (sample[iHigh - 1] + sample[iHigh]) / 2 : hi;
+      let progressed = false;
+      for (const bound of [newLo, newHi]) {
+        if (!Number.isFinite(bound) || bound <= lo || bound >= hi) continue;
+        const count = this.countBelow(bound);
+        if (count < kLow && count > countLo) {
+          lo = bound;
+          countLo = count;
+          progressed = true;
+        } else if (count >= kHigh && count < countHi) {
+          hi = bound;
+          countHi = count;
+          progressed = true;
+        }
+      }
+      if (!progressed) sampleSize *= 2;
+    }
+    throw new Error(`slope selection did not settle on ranks ${kLow}..${kHigh}`);
+  }
+
+  /**
+   * Lists the slopes between the bounds widened by the rounding margin, sorts them and picks the
+   * ranks; refuses (returns false) unless each picked slope lies clear of both widened bounds,
+   * which guarantees that no slope was put on the wrong side of a bound by rounding.
+   */
+  private listAndPick(lo: number, hi: number, kLow: number, kHigh: number, out: Map<number, number>): boolean {
+    const marginLo = Number.isFinite(lo) ? this.margin(lo) : 0;
+    const marginHi = Number.isFinite(hi) ? this.margin(hi) : 0;
+    const wideLo = lo - marginLo;
+    const wideHi = hi + marginHi;
+    const countBelow = this.countBelow(wideLo);
+    let listed = new Float64Array(Math.min(this.listBudget, 1024));
+    let length = 0;
+    this.visitBetween(wideLo, wideHi, (i, j) => {
+      if (length === listed.length) {
+        const grown = new Float64Array(2 * listed.length);
+        grown.set(listed);
+        listed = grown;
+      }
+      listed[length++] = pairSlope(this.points, i, j);
+    });
+    const sorted = listed.subarray(0, length).sort();
+    for (let k = kLow; k <= kHigh; k++) {
+      const index = k - countBelow - 1;
+      if (index < 0 || index >= sorted.length) return false;
+      const value = sorted[index];
+      if (value < wideLo + marginLo / 2 || value > wideHi - marginHi / 2) return false;
+    }
+    for (let k = kLow; k <= kHigh; k++) out.set(k, sorted[k - countBelow - 1]);
+    return true;
+  }
+
+  /** Exact number of slopes below the tied value v and equal to it, from the band v ± margin. */
+  private tieRanks(v: number): { below: number; equal: number; lo: number; hi: number; countLo: number; countHi: number } {
+    const lo = v - this.margin(v);
+    const hi = v + this.margin(v);
+    const countLo = this.countBelow(lo);
+    let below = countLo;
+    let equal = 0;
+    let inBand = 0;
+    this.visitBetween(lo, hi, (i, j) => {
+      const s = pairSlope(this.points, i, j);
+      inBand++;
+      if (s < v) below++;
+      else if (s === v) equal++;
+    });
+    return { below, equal, lo, hi, countLo, countHi: countLo + inBand };
+  }
+
+  /** Key y − t·x of every point, in x order; ±∞ by their limiting orders. */
+  private fillKey(t: number, key: Float64Array): void {
+    const { x, y } = this.points;
+    if (t === Infinity) for (let i = 0; i < this.n; i++) key[i] = -x[i];
+    else for (let i = 0; i < this.n; i++) key[i] = y[i] - t * x[i];
+  }
+
+  /** The points in the stable order of the keys at lo (identity for lo = −∞). */
+  private orderAt(lo: number): Int32Array {
+    const sequence = this.sequence;
+    for (let i = 0; i < this.n; i++) sequence[i] = i;
+    if (lo !== -Infinity) {
+      this.fillKey(lo, this.keyLo);
+      mergeSort(sequence, this.keyLo, this.buffer, null, null);
+    }
+    return sequence;
+  }
+
+  /** Approximate number of finite slopes below t (exact away from rounding distance of t). */
+  private countBelow(t: number): number {
+    if (t === -Infinity) return 0;
+    if (t === Infinity) return this.finiteCount;
+    const work = this.work;
+    for (let i = 0; i < this.n; i++) work[i] = i;
+    this.fillKey(t, this.keyHi);
+    return mergeSort(work, this.keyHi, this.buffer, null, null);
+  }
+
+  /** Calls visit(i, j), i < j in x order, for every pair with slope between lo and hi. */
+  private visitBetween(lo: number, hi: number, visit: (i: number, j: number) => void): void {
+    const sequence = this.orderAt(lo);
+    this.work.set(sequence);
+    this.fillKey(hi, this.keyHi);
+    mergeSort(this.work, this.keyHi, this.buffer, null, (p, q) => (p < q ? visit(p, q) : visit(q, p)));
+  }
+
+  /** `size` slopes drawn uniformly (with replacement) from the pairs between lo and hi, sorted. */
+  private sampleBetween(lo: number, hi: number, size: number): Float64Array {
+    const n = this.n;
+    const sequence = this.orderAt(lo);
+    const work = this.work;
+    work.set(sequence);
+    this.fillKey(hi, this.keyHi);
+    const earlierLarger = new Float64Array(n);
+    const total = mergeSort(work, this.keyHi, this.buffer, earlierLarger, null);
+    // work is now sorted by the hi key (stably): rank of each point, and back.
+    const rankOf = new Int32Array(n);
+    for (let r = 0; r < n; r++) rankOf[work[r]] = r;
+    const targets = new Float64Array(size);
+    for (let s = 0; s < size; s++) targets[s] = this.rng.next() * total;
+    targets.sort();
+    const fenwick = new Int32Array(n + 1);
+    const sample = new Float64Array(size);
+    let drawn = 0;
+    let cumulative = 0;
+    for (let position = 0; position < n && drawn < size; position++) {
+      const q = sequence[position];
+      const count = earlierLarger[q];
+      // Inversions ending at q: the `count` earlier points with the largest hi ranks so far.
+      while (drawn < size && targets[drawn] < cumulative + count) {
+        const offset = Math.floor(targets[drawn] - cumulative);
+        const p = work[fenwickKth(fenwick, position - count + offset + 1)];
+        sample[drawn++] = p < q ? pairSlope(this.points, p, q) : pairSlope(this.points, q, p);
+      }
+      cumulative += count;
+      for (let i = rankOf[q] + 1; i <= n; i += i & -i) fenwick[i]++;
+    }
+    return sample.subarray(0, drawn).sort();
+  }
+}
+
+/**
+ * Stable bottom-up merge sort of `items` by key[item], counting strict inversions
+ * (pairs p before q with key[p] > key[q]). Optionally adds per item q the number of such p
+ * to earlierLarger[q] and calls visit(p, q) for each inversion. Returns the inversion count.
+ */
+function mergeSort(
+  items: Int32Array,
+  key: Float64Array,
+  buffer: Int32Array,
+  earlierLarger: Float64Array | null,
+  visit: ((p: number, q: number) => void) | null,
+): number {
+  const n = items.length;
+  let src = items;
+  let dst = buffer;
+  let inversions = 0;
+  for (let width = 1; width < n; width *= 2) {
+    for (let start = 0; start < n; start += 2 * width) {
+      const mid = Math.min(start + width, n);
+      const end = Math.min(start + 2 * width, n);
+      let i = start;
+      let j = mid;
+      let k = start;
+      while (i < mid && j < end) {
+        if (key[src[j]] < key[src[i]]) {
+          const q = src[j];
+          inversions += mid - i;
+          if (earlierLarger) earlierLarger[q] += mid - i;
+          if (visit) for (let p = i; p < mid; p++) visit(src[p], q);
+          dst[k++] = src[j++];
+        } else {
+          dst[k++] = src[i++];
+        }
+      }
+      while (i < mid) dst[k++] = src[i++];
+      while (j < end) dst[k++] = src[j++];
+    }
+    const swap = src;
+    src = dst;
+    dst = swap;
+  }
+  if (src !== items) items.set(src);
+  return inversions;
+}
+
+/** Rank (0-based) of the k-th smallest (1-based) stored value in a Fenwick tree of counts over ranks. */
+function fenwickKth(tree: Int32Array, k: number): number {
+  let position = 0;
+  let step = 1;
+  while (step * 2 < tree.length) step *= 2;
+  for (; step > 0; step >>= 1) {
+    const next = position + step;
+    if (next < tree.length && tree[next] < k) {
+      position = next;
+      k -= tree[next];
+    }
+  }
+  return position;
+}

@@ -1,8 +1,9 @@
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { StatsInputError } from './errors';
-import { madScale } from './linear';
+import { madScale, selectKth } from './linear';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
+import { fitPassingBablok } from './passingBablok';
 import type { LineFit, MethodKey } from './types';
 import { validateFinite } from './validate';
 
@@ -81,8 +82,8 @@ export function biasVerdict(ci: [number, number], limit: number): BiasVerdict {
   return 'inconclusive';
 }
 
-/** Refits a line to resampled data, writing nothing the caller keeps; returns [intercept, slope]. */
-export type LineRefit = (x: Float64Array, y: Float64Array) => [number, number];
+/** Refits a line to the samples at `indices` (repeats allowed); returns [intercept, slope]. */
+export type IndexedRefit = (indices: Int32Array) => [number, number];
 
 /** Options of the bootstrap refits. */
 export interface BiasBootstrapOptions {
@@ -109,9 +110,19 @@ const REFIT_TOLERANCE = 1e-7;
 const REFIT_MAX_ITERATIONS = 200;
 
 /**
+ * Whether {@link bootstrapBiasIntervals} can refit this estimator (LAD cannot yet: its exact solver is not exported).
+ *
+ * @example
+ * hasBootstrapRefit('passingBablok'); // true
+ */
+export function hasBootstrapRefit(method: MethodKey): boolean {
+  return method === 'passingBablok' || method === 'huber' || method === 'tukey' || method === 'hampel' || method === 'mm';
+}
+
+/**
  * Warm-started refit for the bootstrap of a robust fit, by the same IRLS as the full fit (u = r/s, weights w(u),
- * weighted least squares, relative change ‖Δβ‖/‖β‖) but returning only the coefficients, with every buffer
- * allocated once per bootstrap rather than once per resample.
+ * weighted least squares, stop at a relative change ‖Δβ‖/‖β‖ of 1e-7) but returning only the coefficients, with
+ * every buffer allocated once per bootstrap rather than once per resample.
  * - Huber, Tukey, Hampel: MAD scale re-estimated every iteration, started from the full-data estimate instead of
  *   from OLS or a fresh S-estimate per resample.
  * - MM: the full-data S-scale is kept fixed and the bisquare M-step starts from the full-data MM coefficients.
@@ -120,8 +131,7 @@ const REFIT_MAX_ITERATIONS = 200;
  *   solution instead of being recomputed from scratch, which is far cheaper and stays close while a resample does
  *   not carry many more outliers than the data.
  */
-function robustRefit(fit: LineFit, data: readonly number[], tuning: BiasBootstrapOptions['tuning']): LineRefit {
-  const n = data.length;
+function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
   let norm: RobustNorm;
   let fixedScale: number | undefined;
   if (fit.method === 'mm') {
@@ -135,18 +145,25 @@ function robustRefit(fit: LineFit, data: readonly number[], tuning: BiasBootstra
   } else {
     throw new StatsInputError(`the ${fit.method} fit has no robust bootstrap refit`, { field: 'fit.method' });
   }
+  const n = x.length;
+  // x is centred at the full-data mean so that one-pass weighted sums stay accurate
+  const centre = x.reduce((sum, v) => sum + v, 0) / n;
+  const xs = new Float64Array(n);
+  const ys = new Float64Array(n);
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
-  const centre = data.reduce((sum, v) => sum + v, 0) / n;
-  return (x, y) => {
-    const size = x.length;
+  return (indices) => {
+    const size = indices.length;
     const r = size === n ? residuals : residuals.subarray(0, size);
     const s = size === n ? scratch : scratch.subarray(0, size);
-    // x is centred at the full-data mean so that one-pass weighted sums stay accurate
+    for (let i = 0; i < size; i++) {
+      xs[i] = x[indices[i]] - centre;
+      ys[i] = y[indices[i]];
+    }
     let a = fit.intercept + fit.slope * centre;
     let b = fit.slope;
     for (let iteration = 0; iteration < REFIT_MAX_ITERATIONS; iteration++) {
-      for (let i = 0; i < size; i++) r[i] = y[i] - a - b * (x[i] - centre);
+      for (let i = 0; i < size; i++) r[i] = ys[i] - a - b * xs[i];
       const scale = fixedScale ?? madScale(r, s);
       let sumW = 0;
       let sumWX = 0;
@@ -154,14 +171,13 @@ function robustRefit(fit: LineFit, data: readonly number[], tuning: BiasBootstra
       let sumWXX = 0;
       let sumWXY = 0;
       for (let i = 0; i < size; i++) {
-        const wi = norm.weight(r[i] / scale);
-        const xi = x[i] - centre;
-        const wx = wi * xi;
-        sumW += wi;
+        const w = norm.weight(r[i] / scale);
+        const wx = w * xs[i];
+        sumW += w;
         sumWX += wx;
-        sumWY += wi * y[i];
-        sumWXX += wx * xi;
-        sumWXY += wx * y[i];
+        sumWY += w * ys[i];
+        sumWXX += wx * xs[i];
+        sumWXY += wx * ys[i];
       }
       const sxx = sumWXX - (sumWX * sumWX) / sumW;
       if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
@@ -169,7 +185,7 @@ function robustRefit(fit: LineFit, data: readonly number[], tuning: BiasBootstra
       }
       const nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
       const nextA = (sumWY - nextB * sumWX) / sumW;
-      // the relative change of (intercept, slope) on the original x scale, as in the full fit
+      // relative change of (intercept, slope) on the original x scale, as in the full fit
       const change = Math.hypot(nextA - nextB * centre - (a - b * centre), nextB - b) / Math.max(1e-20, Math.hypot(a - b * centre, b));
       a = nextA;
       b = nextB;
@@ -179,15 +195,119 @@ function robustRefit(fit: LineFit, data: readonly number[], tuning: BiasBootstra
   };
 }
 
-/** The refit a bootstrap fit uses. */
-function refitFor(fit: LineFit, x: readonly number[], tuning: BiasBootstrapOptions['tuning']): LineRefit {
-  return robustRefit(fit, x, tuning);
+/**
+ * Exact Passing–Bablok point estimate on a resample, from the full data's pairwise slopes sorted once.
+ * A resample holding sample i c_i times has, among its pairs of different samples, the slope S_ij exactly c_i·c_j
+ * times, and pairs of the same sample are identical points, which the method skips. So the resample's N, its K
+ * (slopes below −1) and its shifted median (rank (N + 1)/2 + K, or the mean of ranks N/2 + K and N/2 + 1 + K;
+ * Passing & Bablok 1983) are weighted counts over the one sorted list, and a = median(y − b·x) over the resample.
+ * Slopes are (y_j − y_i)/(x_j − x_i), identical points skipped, slopes of exactly −1 dropped, equal x with different
+ * y counted as +∞ — as in fitPassingBablok, which the tests compare it with. O(n²) once, then O(n²) additions and
+ * no allocation per resample, instead of a full fit with its intervals and linearity test.
+ */
+function passingBablokRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
+  const n = x.length;
+  const pairCount = (n * (n - 1)) / 2;
+  const slopes = new Float64Array(pairCount);
+  const first = new Int32Array(pairCount);
+  const second = new Int32Array(pairCount);
+  const excludedFirst: number[] = [];
+  const excludedSecond: number[] = [];
+  let kept = 0;
+  for (let i = 0; i < n; i++) {
+    for (let j = i + 1; j < n; j++) {
+      const dx = x[j] - x[i];
+      const dy = y[j] - y[i];
+      const slope = dx === 0 ? (dy === 0 ? Number.NaN : Number.POSITIVE_INFINITY) : dy / dx;
+      if (Number.isNaN(slope) || slope === -1) {
+        excludedFirst.push(i);
+        excludedSecond.push(j);
+        continue;
+      }
+      slopes[kept] = slope;
+      first[kept] = i;
+      second[kept] = j;
+      kept++;
+    }
+  }
+  const order = Int32Array.from({ length: kept }, (_, k) => k).sort((p, q) => slopes[p] - slopes[q] || p - q);
+  const sortedSlopes = Float64Array.from(order, (k) => slopes[k]);
+  const sortedFirst = Int32Array.from(order, (k) => first[k]);
+  const sortedSecond = Int32Array.from(order, (k) => second[k]);
+  let belowMinusOneEnd = 0;
+  while (belowMinusOneEnd < kept && sortedSlopes[belowMinusOneEnd] < -1) belowMinusOneEnd++;
+
+  const counts = new Float64Array(n);
+  const offsets = new Float64Array(n);
+  /** Mean of the slopes at 1-based weighted ranks `low` ≤ `high` of the sorted list. */
+  const meanAtRanks = (low: number, high: number) => {
+    let cumulative = 0;
+    let lowValue = Number.NaN;
+    for (let k = 0; k < kept; k++) {
+      cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+      if (Number.isNaN(lowValue) && cumulative >= low) lowValue = sortedSlopes[k];
+      if (cumulative >= high) return (lowValue + sortedSlopes[k]) / 2;
+    }
+    return Number.NaN;
+  };
+  return (indices) => {
+    const size = indices.length;
+    counts.fill(0);
+    for (let i = 0; i < size; i++) counts[indices[i]]++;
+    let sumSquares = 0;
+    for (let i = 0; i < n; i++) sumSquares += counts[i] * counts[i];
+    let total = (size * size - sumSquares) / 2;
+    for (let e = 0; e < excludedFirst.length; e++) total -= counts[excludedFirst[e]] * counts[excludedSecond[e]];
+    let shift = 0;
+    for (let k = 0; k < belowMinusOneEnd; k++) shift += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+    const half = Math.floor(total / 2);
+    if (total <= 0 || half + 1 + shift > total) {
+      throw new StatsInputError('the resample has no usable shifted median slope (no slopes, or too many below −1)', { field: 'x' });
+    }
+    const slope = total % 2 === 1 ? meanAtRanks(half + 1 + shift, half + 1 + shift) : meanAtRanks(half + shift, half + 1 + shift);
+    if (!Number.isFinite(slope)) {
+      throw new StatsInputError('the resample\'s median slope is a vertical pair: too many samples share one x value', { field: 'x' });
+    }
+    const o = size === n ? offsets : offsets.subarray(0, size);
+    for (let i = 0; i < size; i++) o[i] = y[indices[i]] - slope * x[indices[i]];
+    return [medianInPlace(o), slope];
+  };
+}
+
+/** Median of `values`, reordering them (even length: mean of the two middle values). */
+function medianInPlace(values: Float64Array): number {
+  const size = values.length;
+  const half = size >> 1;
+  const upper = selectKth(values, half);
+  if (size % 2 === 1) return upper;
+  let lower = -Infinity;
+  for (let i = 0; i < half; i++) if (values[i] > lower) lower = values[i];
+  return (lower + upper) / 2;
+}
+
+/** Above this many samples the sorted slope list (16 bytes a pair) would be too large; refit in full instead. */
+const SORTED_SLOPES_LIMIT = 2000;
+
+/** Full Passing–Bablok fit of each resample: O(n log n) memory, for large n. */
+function passingBablokFullRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
+  return (indices) => {
+    const fit = fitPassingBablok(Array.from(indices, (i) => x[i]), Array.from(indices, (i) => y[i]));
+    return [fit.intercept, fit.slope];
+  };
+}
+
+function refitFor(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
+  if (fit.method === 'passingBablok') return x.length <= SORTED_SLOPES_LIMIT ? passingBablokRefit(x, y) : passingBablokFullRefit(x, y);
+  if (!hasBootstrapRefit(fit.method)) {
+    throw new StatsInputError(`the ${fit.method} fit has no bootstrap refit`, { field: 'fit.method' });
+  }
+  return robustRefit(fit, x, y, tuning);
 }
 
 /**
  * Seeded case-resampling bootstrap CIs of the bias B(X_c) = a + (b − 1)·X_c of a Passing–Bablok or robust fit at
- * each level (Efron, JASA 1987; percentile or BCa, default 2,000 resamples, see bootstrapIntervals). One pair of
- * resample buffers is reused; a resample on which the refit fails (e.g. all x equal) is skipped and counted.
+ * each level (Efron, JASA 1987; percentile or BCa, default 2,000 resamples, see bootstrapIntervals). Each refit
+ * reuses buffers made once; a resample on which the refit fails (e.g. all x equal) is skipped and counted.
  *
  * @example
  * const fit = fitRobustLine(x, y, 'huber');
@@ -204,22 +324,12 @@ export function bootstrapBiasIntervals(
     throw new StatsInputError(`the fit was made on ${fit.n} samples but ${x.length} x and ${y.length} y values were given`, { field: 'x' });
   }
   levels.forEach(validateLevel);
-  const refit = refitFor(fit, x, options.tuning);
-  const n = x.length;
-  const xs = new Float64Array(n);
-  const ys = new Float64Array(n);
+  const refit = refitFor(fit, x, y, options.tuning);
   const statistic = (indices: Int32Array) => {
-    const size = indices.length;
-    const xb = size === n ? xs : xs.subarray(0, size);
-    const yb = size === n ? ys : ys.subarray(0, size);
-    for (let i = 0; i < size; i++) {
-      xb[i] = x[indices[i]];
-      yb[i] = y[indices[i]];
-    }
-    const [a, b] = refit(xb, yb);
+    const [a, b] = refit(indices);
     return levels.map((level) => a + (b - 1) * level);
   };
-  const result = bootstrapIntervals(n, statistic, {
+  const result = bootstrapIntervals(x.length, statistic, {
     resamples: options.resamples,
     seed: options.seed,
     method: options.method,

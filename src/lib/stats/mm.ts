@@ -25,8 +25,9 @@ export interface MMEstimate extends MEstimate {
 
 function mmOnDesign(design: LinearDesign, y: Float64Array, opts: MMOptions): MMEstimate {
   const { seed = 1, c = 4.685, confidence = 0.95, maxIterations, tolerance } = opts;
+  const norm = tukeyBisquareNorm(c);
   const s = sEstimateOnDesign(design, y, { ...opts.sEstimator, seed });
-  const m = mEstimateOnDesign(design, y, tukeyBisquareNorm(c), {
+  const m = mEstimateOnDesign(design, y, norm, {
     start: s.coefficients,
     startKind: 's-estimate',
     fixedScale: s.scale,

@@ -1,6 +1,6 @@
 /**
- * `npm test`: vitest (unit and integration, each integration run on a throwaway PostgreSQL cluster), then a
- * production build and the Playwright journeys in Debian's chromium, then one summary line for all suites.
+ * `npm test`: a production build; vitest (unit, and integration against the built server on a throwaway
+ * PostgreSQL cluster); the Playwright journeys in Debian's chromium; then one summary line for all suites.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, rmSync } from 'node:fs';
@@ -19,10 +19,11 @@ function readJson(file: string): Record<string, any> | null {
   return existsSync(file) ? JSON.parse(readFileSync(file, 'utf8')) : null;
 }
 
+// Integration and browser tests both talk to the built server.
+const buildStatus = run('npx', ['astro', 'build']);
 const vitestStatus = run('npx', ['vitest', 'run', '--reporter=default', '--reporter=json', `--outputFile.json=${RESULTS}/vitest.json`]);
 const vitest = readJson(`${RESULTS}/vitest.json`);
 
-const buildStatus = run('npx', ['astro', 'build']);
 const e2eStatus =
   buildStatus === 0
     ? run('npx', ['playwright', 'test', '--reporter=list,json'], { PLAYWRIGHT_JSON_OUTPUT_NAME: `${RESULTS}/playwright.json` })

@@ -19,24 +19,23 @@ const ACTION_WORDS: Record<Action, string> = {
   'tokens.manage': 'manage API tokens',
 };
 
-export interface LabContext {
-  lab: { id: string; slug: string; name: string };
-  user: NonNullable<App.Locals['user']> | null;
+type SignedInUser = NonNullable<App.Locals['user']>;
+
+/** The laboratory of the request and the signed-in member, after checking that their role may do `action`. */
+export function requireLab(locals: App.Locals, action: Action): { lab: NonNullable<App.Locals['lab']>; user: SignedInUser } {
+  if (locals.viaApiToken) throw forbidden(`${ACTION_WORDS[action]} with an API token`);
+  if (!locals.user || !locals.lab) throw unauthenticated();
+  if (!can(locals.role, action)) throw forbidden(ACTION_WORDS[action]);
+  return { lab: locals.lab, user: locals.user };
 }
 
 /**
- * The laboratory of the request, after checking that the caller may do `action` there.
- * API tokens may only enter results.
+ * Like requireLab, but a lab-scoped API token may also enter results (middleware and LIS uploads);
+ * `user` is null for a token.
  */
-export function requireLab(locals: App.Locals, action: Action): LabContext {
-  if (!locals.lab) throw unauthenticated();
-  if (locals.viaApiToken) {
-    if (action !== 'results.enter') throw forbidden(ACTION_WORDS[action] + ' with an API token');
-    return { lab: locals.lab, user: null };
-  }
-  if (!locals.user) throw unauthenticated();
-  if (!can(locals.role, action)) throw forbidden(ACTION_WORDS[action]);
-  return { lab: locals.lab, user: locals.user };
+export function requireLabOrToken(locals: App.Locals, action: 'results.enter'): { lab: NonNullable<App.Locals['lab']>; user: SignedInUser | null } {
+  if (locals.viaApiToken && locals.lab) return { lab: locals.lab, user: null };
+  return requireLab(locals, action);
 }
 
 /** The signed-in person, for endpoints outside a laboratory. */

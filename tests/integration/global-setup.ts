@@ -1,13 +1,15 @@
 /**
- * The integration stack: a throwaway PostgreSQL cluster on a free port in .data/, migrated, and the SMTP
- * capture, handed to the tests through the same environment variables the app reads; all removed at the end.
+ * The integration stack: a throwaway PostgreSQL cluster on a free port in .data/, migrated; the SMTP capture;
+ * and the built server (`npx astro build` first; `npm test` does it) on a free port. The tests get the same
+ * environment variables the app reads, plus TEST_BASE_URL; everything is removed at the end.
  */
-import { rmSync } from 'node:fs';
+import { spawn } from 'node:child_process';
+import { existsSync, rmSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
-import { DATA_DIR } from '../../scripts/local';
+import { DATA_DIR, ROOT } from '../../scripts/local';
 import { startSmtpFake } from '../../scripts/smtp-fake';
 
 async function freePort(): Promise<number> {
@@ -21,7 +23,23 @@ async function freePort(): Promise<number> {
   });
 }
 
+async function waitForHealth(url: string, seconds: number) {
+  const deadline = Date.now() + seconds * 1000;
+  while (Date.now() < deadline) {
+    try {
+      const response = await fetch(`${url}/api/health`);
+      if (response.ok) return;
+    } catch {
+      // not listening yet
+    }
+    await new Promise((r) => setTimeout(r, 200));
+  }
+  throw new Error(`The built server did not answer ${url}/api/health within ${seconds} s.`);
+}
+
 export default async function setup() {
+  const entry = `${ROOT}dist/server/entry.mjs`;
+  if (!existsSync(entry)) throw new Error('Integration tests need the built server: run `npx astro build` first (npm test does).');
   const dataDir = `${DATA_DIR}/test-integration-${process.pid}`;
   const mailDir = `${DATA_DIR}/test-integration-mail-${process.pid}`;
   const cluster = await ensureCluster({ dataDir, port: await freePort(), database: 'biaswise_test' });
@@ -29,15 +47,26 @@ export default async function setup() {
   await applyMigrations(db);
   await db.$client.end();
   const smtp = await startSmtpFake({ port: await freePort(), dir: mailDir });
+  const webPort = await freePort();
+  const baseUrl = `http://127.0.0.1:${webPort}`;
 
-  Object.assign(process.env, {
+  const env = {
     DATABASE_URL: cluster.url,
     BETTER_AUTH_SECRET: 'integration-only-secret-0123456789abcdefgh',
-    PUBLIC_BASE_URL: 'http://127.0.0.1:4321',
+    PUBLIC_BASE_URL: baseUrl,
     SMTP_URL: `smtp://127.0.0.1:${smtp.port}`,
     MAIL_CAPTURE_DIR: mailDir,
+  };
+  Object.assign(process.env, env, { TEST_BASE_URL: baseUrl });
+  const server = spawn(process.execPath, [entry], {
+    cwd: ROOT,
+    env: { ...process.env, ...env, HOST: '127.0.0.1', PORT: String(webPort) },
+    stdio: ['ignore', 'ignore', 'inherit'],
   });
+  await waitForHealth(baseUrl, 60);
+
   return async () => {
+    server.kill('SIGTERM');
     await smtp.close();
     removeCluster(dataDir);
     rmSync(mailDir, { recursive: true, force: true });

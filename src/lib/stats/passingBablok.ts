@@ -309,6 +309,49 @@ function pearson(points: Points): number | undefined {
 // ---------------------------------------------------------------------------------------------
 // Selection path.
 
+/** Counts of the slopes in a band below, equal to and in total, against a value v. */
+interface BandCount {
+  below: number;
+  equal: number;
+  total: number;
+}
+
+/**
+ * Receives the pairs found by the merge sort, a run of earlier points at a time, and either
+ * counts their slopes against `value` or lists them. One class, so the hot call stays monomorphic.
+ */
+class PairSink {
+  below = 0;
+  equal = 0;
+  total = 0;
+  listed: Float64Array = new Float64Array(1024);
+  constructor(
+    private readonly x: Float64Array,
+    private readonly y: Float64Array,
+    private readonly listing: boolean,
+    private readonly value: number,
+  ) {}
+
+  take(items: Int32Array, from: number, to: number, q: number): void {
+    const { x, y, value } = this;
+    this.total += to - from;
+    if (this.listing && this.total > this.listed.length) {
+      const grown = new Float64Array(Math.max(2 * this.listed.length, this.total));
+      grown.set(this.listed);
+      this.listed = grown;
+    }
+    let length = this.total - (to - from);
+    for (let k = from; k < to; k++) {
+      const p = items[k];
+      // The pair in x order, so the slope is computed exactly as in pairSlope.
+      const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
+      if (this.listing) this.listed[length++] = s;
+      else if (s < value) this.below++;
+      else if (s === value) this.equal++;
+    }
+  }
+}
+
 /**
  * Order statistics of the finite slopes without listing them. A slope bound t is represented by
  * the key y − t·x of every point (t = ±∞ by the limiting orders); the pairs between bounds lo < hi
@@ -322,11 +365,13 @@ class SelectedSlopes implements SlopeSet {
   private readonly points: Points;
   private readonly n: number;
   private readonly rng: SeededRandom;
-  /** Scale of rounding error in slope units, per unit of |t|, and its floor. */
+  /** Rounding margin in slope units: marginScale + marginPerSlope·|t|. */
   private readonly marginScale: number;
   private readonly marginPerSlope: number;
   private readonly listBudget: number;
   private readonly sampleSize: number;
+  private readonly tieCache = new Map<number, BandCount & { countLo: number }>();
+  private firstSample: Float64Array | null = null;
   // Scratch buffers, reused by every pass.
   private readonly keyLo: Float64Array;
   private readonly keyHi: Float64Array;
@@ -361,17 +406,9 @@ class SelectedSlopes implements SlopeSet {
     this.work = new Int32Array(n);
     this.buffer = new Int32Array(n);
 
-    const lo = -1 - this.margin(-1);
-    const hi = -1 + this.margin(-1);
-    let below = this.countBelow(lo);
-    let equal = 0;
-    this.visitBetween(lo, hi, (i, j) => {
-      const s = pairSlope(points, i, j);
-      if (s < -1) below++;
-      else if (s === -1) equal++;
-    });
-    this.belowMinusOne = below;
-    this.equalMinusOne = equal;
+    const minusOne = this.tieRanks(-1);
+    this.belowMinusOne = minusOne.below;
+    this.equalMinusOne = minusOne.equal;
   }
 
   select(ranks: number[]): Map<number, number> {
@@ -399,7 +436,10 @@ class SelectedSlopes implements SlopeSet {
     for (let round = 0; round < 60; round++) {
       const between = countHi - countLo;
       if (between <= this.listBudget && this.listAndPick(lo, hi, kLow, kHigh, out)) return;
-      const sample = this.sampleBetween(lo, hi, Math.min(sampleSize, between));
+      const sample =
+        lo === -Infinity && hi === Infinity && sampleSize === this.sampleSize
+          ? this.sampleAll()
+          : this.sampleBetween(lo, hi, Math.min(sampleSize, between));
       const s = sample.length;
       const fracLow = (kLow - countLo) / between;
       const fracHigh = (kHigh - countLo) / between;
@@ -407,9 +447,10 @@ class SelectedSlopes implements SlopeSet {
       const iHigh = Math.ceil(fracHigh * s + 3 * Math.sqrt(s * fracHigh * (1 - fracHigh)) + 3);
       if (iLow >= 0 && iHigh < s && sample[iLow] === sample[iHigh]) {
         // A tied slope value fills the window: settle the ranks that fall on it directly.
-        const tie = this.tieRanks(sample[iLow]);
+        const v = sample[iLow];
+        const tie = this.tieRanks(v);
         if (kLow > tie.below && kHigh <= tie.below + tie.equal) {
-          for (let k = kLow; k <= kHigh; k++) out.set(k, sample[iLow]);
+          for (let k = kLow; k <= kHigh; k++) out.set(k, v);
           return;
         }
         if (kLow < kHigh) {
@@ -418,11 +459,11 @@ class SelectedSlopes implements SlopeSet {
           return;
         }
         if (kHigh <= tie.below) {
-          hi = tie.lo;
+          hi = v - this.margin(v);
           countHi = tie.countLo;
         } else {
-          lo = tie.hi;
-          countLo = tie.countHi;
+          lo = v + this.margin(v);
+          countLo = tie.countLo + tie.total;
         }
         continue;
       }
@@ -458,17 +499,8 @@ class SelectedSlopes implements SlopeSet {
     const wideLo = lo - marginLo;
     const wideHi = hi + marginHi;
     const countBelow = this.countBelow(wideLo);
-    let listed = new Float64Array(Math.min(this.listBudget, 1024));
-    let length = 0;
-    this.visitBetween(wideLo, wideHi, (i, j) => {
-      if (length === listed.length) {
-        const grown = new Float64Array(2 * listed.length);
-        grown.set(listed);
-        listed = grown;
-      }
-      listed[length++] = pairSlope(this.points, i, j);
-    });
-    const sorted = listed.subarray(0, length).sort();
+    const sink = this.pairsBetween(wideLo, wideHi, true, 0);
+    const sorted = sink.listed.subarray(0, sink.total).sort();
     for (let k = kLow; k <= kHigh; k++) {
       const index = k - countBelow - 1;
       if (index < 0 || index >= sorted.length) return false;
@@ -479,21 +511,19 @@ class SelectedSlopes implements SlopeSet {
     return true;
   }
 
-  /** Exact number of slopes below the tied value v and equal to it, from the band v ± margin. */
-  private tieRanks(v: number): { below: number; equal: number; lo: number; hi: number; countLo: number; countHi: number } {
+  /**
+   * Exact numbers of slopes below v and equal to v: those below v − margin by counting, the band
+   * v ± margin one by one. Also the count below the band and its size, to move a bound past it.
+   */
+  private tieRanks(v: number): BandCount & { countLo: number } {
+    const cached = this.tieCache.get(v);
+    if (cached) return cached;
     const lo = v - this.margin(v);
-    const hi = v + this.margin(v);
     const countLo = this.countBelow(lo);
-    let below = countLo;
-    let equal = 0;
-    let inBand = 0;
-    this.visitBetween(lo, hi, (i, j) => {
-      const s = pairSlope(this.points, i, j);
-      inBand++;
-      if (s < v) below++;
-      else if (s === v) equal++;
-    });
-    return { below, equal, lo, hi, countLo, countHi: countLo + inBand };
+    const band = this.pairsBetween(lo, v + this.margin(v), false, v);
+    const result = { below: countLo + band.below, equal: band.equal, total: band.total, countLo };
+    this.tieCache.set(v, result);
+    return result;
   }
 
   /** Key y − t·x of every point, in x order; ±∞ by their limiting orders. */
@@ -524,17 +554,38 @@ class SelectedSlopes implements SlopeSet {
     return mergeSort(work, this.keyHi, this.buffer, null, null);
   }
 
-  /** Calls visit(i, j), i < j in x order, for every pair with slope between lo and hi. */
-  private visitBetween(lo: number, hi: number, visit: (i: number, j: number) => void): void {
+  /** The pairs with slope between lo and hi, listed or counted against `value`. */
+  private pairsBetween(lo: number, hi: number, listing: boolean, value: number): PairSink {
     const sequence = this.orderAt(lo);
     this.work.set(sequence);
     this.fillKey(hi, this.keyHi);
-    mergeSort(this.work, this.keyHi, this.buffer, null, (p, q) => (p < q ? visit(p, q) : visit(q, p)));
+    const sink = new PairSink(this.points.x, this.points.y, listing, value);
+    mergeSort(this.work, this.keyHi, this.buffer, null, sink);
+    return sink;
+  }
+
+  /** Uniform random slopes over all finite pairs (drawn once, shared by every rank group), sorted. */
+  private sampleAll(): Float64Array {
+    if (this.firstSample) return this.firstSample;
+    const { x } = this.points;
+    const size = Math.min(this.sampleSize, this.finiteCount);
+    const sample = new Float64Array(size);
+    let drawn = 0;
+    // Rejection of equal-x pairs; if they are most pairs, fall back to drawing inversions.
+    for (let attempt = 0; attempt < 20 * size && drawn < size; attempt++) {
+      const i = this.rng.int(this.n);
+      const j = this.rng.int(this.n);
+      if (x[i] < x[j]) sample[drawn++] = pairSlope(this.points, i, j);
+      else if (x[j] < x[i]) sample[drawn++] = pairSlope(this.points, j, i);
+    }
+    this.firstSample = drawn === size ? sample.sort() : this.sampleBetween(-Infinity, Infinity, size);
+    return this.firstSample;
   }
 
   /** `size` slopes drawn uniformly (with replacement) from the pairs between lo and hi, sorted. */
   private sampleBetween(lo: number, hi: number, size: number): Float64Array {
     const n = this.n;
+    const { x, y } = this.points;
     const sequence = this.orderAt(lo);
     const work = this.work;
     work.set(sequence);
@@ -548,6 +599,8 @@ class SelectedSlopes implements SlopeSet {
     for (let s = 0; s < size; s++) targets[s] = this.rng.next() * total;
     targets.sort();
     const fenwick = new Int32Array(n + 1);
+    let topStep = 1;
+    while (topStep * 2 <= n) topStep *= 2;
     const sample = new Float64Array(size);
     let drawn = 0;
     let cumulative = 0;
@@ -556,9 +609,8 @@ class SelectedSlopes implements SlopeSet {
       const count = earlierLarger[q];
       // Inversions ending at q: the `count` earlier points with the largest hi ranks so far.
       while (drawn < size && targets[drawn] < cumulative + count) {
-        const offset = Math.floor(targets[drawn] - cumulative);
-        const p = work[fenwickKth(fenwick, position - count + offset + 1)];
-        sample[drawn++] = p < q ? pairSlope(this.points, p, q) : pairSlope(this.points, q, p);
+        const p = work[fenwickKth(fenwick, topStep, position - count + Math.floor(targets[drawn] - cumulative) + 1)];
+        sample[drawn++] = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
       }
       cumulative += count;
       for (let i = rankOf[q] + 1; i <= n; i += i & -i) fenwick[i]++;
@@ -570,14 +622,14 @@ class SelectedSlopes implements SlopeSet {
 /**
  * Stable bottom-up merge sort of `items` by key[item], counting strict inversions
  * (pairs p before q with key[p] > key[q]). Optionally adds per item q the number of such p
- * to earlierLarger[q] and calls visit(p, q) for each inversion. Returns the inversion count.
+ * to earlierLarger[q], and hands each run of such p with its q to `sink`. Returns the inversion count.
  */
 function mergeSort(
   items: Int32Array,
   key: Float64Array,
   buffer: Int32Array,
   earlierLarger: Float64Array | null,
-  visit: ((p: number, q: number) => void) | null,
+  sink: PairSink | null,
 ): number {
   const n = items.length;
   let src = items;
@@ -595,7 +647,7 @@ function mergeSort(
           const q = src[j];
           inversions += mid - i;
           if (earlierLarger) earlierLarger[q] += mid - i;
-          if (visit) for (let p = i; p < mid; p++) visit(src[p], q);
+          if (sink) sink.take(src, i, mid, q);
           dst[k++] = src[j++];
         } else {
           dst[k++] = src[i++];
@@ -612,12 +664,13 @@ function mergeSort(
   return inversions;
 }
 
-/** Rank (0-based) of the k-th smallest (1-based) stored value in a Fenwick tree of counts over ranks. */
-function fenwickKth(tree: Int32Array, k: number): number {
+/**
+ * Rank (0-based) of the k-th smallest (1-based) stored value in a Fenwick tree of counts over
+ * ranks; topStep is the largest power of two not above the number of ranks.
+ */
+function fenwickKth(tree: Int32Array, topStep: number, k: number): number {
   let position = 0;
-  let step = 1;
-  while (step * 2 < tree.length) step *= 2;
-  for (; step > 0; step >>= 1) {
+  for (let step = topStep; step > 0; step >>= 1) {
     const next = position + step;
     if (next < tree.length && tree[next] < k) {
       position = next;

@@ -36,25 +36,27 @@ export interface SEstimate {
   residuals: number[];
 }
 
-/** ρ of the bisquare normalised to sup ρ = 1: 1 − (1 − (u/c)²)³ for |u| ≤ c, 1 beyond. */
-function bisquareRho(u: number, c: number): number {
-  const z = (u / c) * (u / c);
-  if (z >= 1) return 1;
-  const v = 1 - z;
-  return 1 - v * v * v;
-}
-
-/** Σρ(rᵢ/s)/(n − p): the left side of the M-scale equation. */
+/** Σρ(rᵢ/s)/(n − p) for the bisquare ρ normalised to sup ρ = 1, ρ(u) = 1 − (1 − (u/c)²)³ for |u| ≤ c, 1 beyond. */
 function meanRho(residuals: Float64Array, scale: number, c: number, df: number): number {
+  const k = 1 / (scale * c);
   let sum = 0;
-  for (let i = 0; i < residuals.length; i++) sum += bisquareRho(residuals[i] / scale, c);
+  for (let i = 0; i < residuals.length; i++) {
+    const u = residuals[i] * k;
+    const z = u * u;
+    if (z >= 1) sum += 1;
+    else {
+      const v = 1 - z;
+      sum += 1 - v * v * v;
+    }
+  }
   return sum / df;
 }
 
 /**
  * M-scale of the residuals of a fit with p coefficients: the s solving Σρ(rᵢ/s)/(n − p) = b for the bisquare ρ
  * normalised to sup ρ = 1 (Rousseeuw & Yohai 1984; the n − p denominator is the small-sample form used by
- * R robustbase lmrob.S), by the fixed-point iteration s ← s·√(Σρ(r/s)/((n − p)b)) from `initial`.
+ * R robustbase lmrob.S). Newton's method in t = 1/s, where the left side increases with t, kept inside the
+ * bracket found so far and replaced by the fixed-point step s ← s·√(Σρ(r/s)/((n − p)b)) when it would leave it.
  *
  * @example
  * mScale(Float64Array.from([-1, 0.5, 2, -0.3, 1.2]), 2, 1.548, 0.5, 1);
@@ -66,12 +68,35 @@ export function mScale(
   b: number,
   initial: number,
   tolerance = 1e-12,
-  maxIterations = 1000,
+  maxIterations = 200,
 ): number {
-  const df = residuals.length - p;
+  const n = residuals.length;
+  const df = n - p;
   let scale = initial;
+  let tooSmall = 0; // largest scale known to give a left side above b
+  let tooLarge = Infinity; // smallest scale known to give a left side below b
   for (let it = 0; it < maxIterations; it++) {
-    const next = scale * Math.sqrt(meanRho(residuals, scale, c, df) / b);
+    const k = 1 / (scale * c);
+    let sum = 0;
+    let slope = 0; // d/dt of Σρ(r·t) at t = 1/s, times s
+    for (let i = 0; i < n; i++) {
+      const u = residuals[i] * k;
+      const z = u * u;
+      if (z >= 1) sum += 1;
+      else {
+        const v = 1 - z;
+        sum += 1 - v * v * v;
+        slope += 6 * z * v * v;
+      }
+    }
+    const excess = sum / df - b;
+    if (excess === 0) return scale;
+    if (excess > 0) tooSmall = Math.max(tooSmall, scale);
+    else tooLarge = Math.min(tooLarge, scale);
+    // Newton in t = 1/s: t_new = t − excess/(slope/(df·t)), i.e. s_new = s / (1 − excess·df/slope)
+    const shrink = 1 - (excess * df) / slope;
+    let next = slope > 0 && shrink > 0 ? scale / shrink : Number.NaN;
+    if (!(next > tooSmall && next < tooLarge)) next = scale * Math.sqrt((excess + b) / b);
     const change = Math.abs(next - scale) / scale;
     scale = next;
     if (change <= tolerance) break;
@@ -89,8 +114,10 @@ function refinementStep(
   c: number,
   b: number,
 ): { beta: Float64Array; scale: number } {
+  const k = 1 / (scale * c);
   for (let i = 0; i < residuals.length; i++) {
-    const z = (residuals[i] / scale / c) ** 2;
+    const u = residuals[i] * k;
+    const z = u * u;
     weights[i] = z >= 1 ? 0 : (1 - z) * (1 - z);
   }
   const beta = design.solveWeighted(y, weights);

@@ -19,6 +19,8 @@ export default defineConfig({
       PUBLIC_BASE_URL: envField.string({ context: 'server', access: 'public', default: 'http://127.0.0.1:4321' }),
       SMTP_URL: envField.string({ context: 'server', access: 'secret', default: 'smtp://127.0.0.1:54325' }),
       MAIL_FROM: envField.string({ context: 'server', access: 'public', default: 'Biaswise <no-reply@biaswise.invalid>' }),
+      /** Sign-in attempts one client address may make per minute. */
+      SIGN_IN_LIMIT_PER_MINUTE: envField.number({ context: 'server', access: 'public', default: 30, int: true, gt: 0 }),
       /** Folder where the local SMTP fake keeps messages; when set, administrators get a mailbox page. */
       MAIL_CAPTURE_DIR: envField.string({ context: 'server', access: 'public', optional: true }),
     },

@@ -8,7 +8,7 @@ import { drizzleAdapter } from 'better-auth/adapters/drizzle';
 import { APIError, createAuthMiddleware, getSessionFromCtx } from 'better-auth/api';
 import { verifyPassword } from 'better-auth/crypto';
 import { and, count, eq, gt, sql } from 'drizzle-orm';
-import { BETTER_AUTH_SECRET, PUBLIC_BASE_URL } from 'astro:env/server';
+import { BETTER_AUTH_SECRET, PUBLIC_BASE_URL, SIGN_IN_LIMIT_PER_MINUTE } from 'astro:env/server';
 import { getDb } from './db';
 import * as schema from '../db/schema';
 import { recordAudit } from './audit';
@@ -58,7 +58,7 @@ function createAuth() {
       window: 60,
       max: 200,
       customRules: {
-        '/sign-in/email': { window: 60, max: 30 },
+        '/sign-in/email': { window: 60, max: SIGN_IN_LIMIT_PER_MINUTE },
         '/sign-up/email': { window: 60, max: 10 },
         '/request-password-reset': { window: 60, max: 5 },
       },

@@ -34,6 +34,7 @@ const server = spawn(process.execPath, ['dist/server/entry.mjs'], {
     PUBLIC_BASE_URL: `http://127.0.0.1:${E2E_PORTS.web}`,
     SMTP_URL: `smtp://127.0.0.1:${E2E_PORTS.smtp}`,
     MAIL_CAPTURE_DIR: E2E_DIRS.mail,
+    SIGN_IN_LIMIT_PER_MINUTE: '1000',
   },
 });
 

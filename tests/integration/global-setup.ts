@@ -56,6 +56,8 @@ export default async function setup() {
     PUBLIC_BASE_URL: baseUrl,
     SMTP_URL: `smtp://127.0.0.1:${smtp.port}`,
     MAIL_CAPTURE_DIR: mailDir,
+    // Many tests sign in from 127.0.0.1; the per-account lock is what the rate-limit test checks.
+    SIGN_IN_LIMIT_PER_MINUTE: '1000',
   };
   Object.assign(process.env, env, { TEST_BASE_URL: baseUrl });
   const server = spawn(process.execPath, [entry], {

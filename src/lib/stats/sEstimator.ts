@@ -18,7 +18,10 @@ export interface SEstimatorOptions {
   /** Right-hand side b of the M-scale equation Σρ(r/s)/(n − p) = b. */
   b?: number;
   maxIterations?: number;
-  /** Relative change in the coefficients at which the full refinement stops. */
+  /**
+   * Relative change in the coefficients at which the full refinement stops (1e-7, robustbase's refine.tol):
+   * the scale is stationary at the optimum, so its error is of the order of the square of this.
+   */
   tolerance?: number;
   /** Above this many samples the subsampling stage runs on a random subset (the full data is used for the final refinement). */
   largeSample?: number;
@@ -241,7 +244,7 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
     c = 1.548,
     b = 0.5,
     maxIterations = 200,
-    tolerance = 1e-10,
+    tolerance = 1e-7,
     largeSample = 2000,
     searchSubsetSize = 1000,
   } = opts;

@@ -246,7 +246,7 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
     maxIterations = 200,
     tolerance = 1e-7,
     largeSample = 2000,
-    searchSubsetSize = 1000,
+    searchSubsetSize = 500,
   } = opts;
   for (const [field, value] of [
     ['subsamples', subsamples],
@@ -321,7 +321,7 @@ function sampleWithoutReplacement(n: number, k: number, rng: SeededRandom): numb
  * skipping a candidate when Σρ(r/s_worst)/(n − p) ≥ b shows it cannot enter), each kept one refined to convergence,
  * and the one with the smallest M-scale returned. Bisquare ρ with c = 1.548, b = 0.5: 50 % breakdown.
  * Above `largeSample` (2,000) samples, the subsampling and ranking run on a seeded random subset of
- * `searchSubsetSize` (1,000) samples, as the large-n variant of fast-S does with subgroups, and the best fit there is
+ * `searchSubsetSize` (500) samples, as the large-n variant of fast-S does with subgroups, and the best fit there is
  * refined to convergence on all the data.
  * The same seed always gives the same result.
  *

@@ -5,8 +5,9 @@ import { fitSEstimator, mScale } from '../../../../src/lib/stats/sEstimator';
 import { datasets, expectRelativelyClose, lineDataNames, rReference } from './robustFixtures';
 
 // Reference: robustbase 0.95-0 lmrob(...)$init.S, i.e. lmrob.S with tuning.chi = 1.548, bb = 0.5
-// (tests/fixtures/robust/generate.R). Both search at random, but both refine to the same minimum of the
-// M-scale, so the estimates agree far inside 1e-3.
+// (tests/fixtures/robust/generate.R, refined there to 1e-13). Both search at random but reach the same minimum
+// of the M-scale; ours stops refining at 1e-7 (robustbase's default refine.tol), so coefficients agree to about
+// 1e-6 and the scale, stationary at the minimum, to about 1e-12.
 describe('S-estimate against robustbase lmrob.S', () => {
   const cases = [
     ['stackloss', rReference.stackloss.X, rReference.stackloss.y, rReference.stackloss],
@@ -15,8 +16,8 @@ describe('S-estimate against robustbase lmrob.S', () => {
   for (const [name, X, y, ref] of cases) {
     it(`${name}: coefficients and scale`, () => {
       const fit = fitSEstimator(X as number[][], y as number[]);
-      expectRelativelyClose(fit.coefficients, ref.lmrob.sCoefficients, 1e-6);
-      expect(fit.scale).toBeCloseTo(ref.lmrob.sScale, 8);
+      expectRelativelyClose(fit.coefficients, ref.lmrob.sCoefficients, 1e-5, 1); // absolute 1e-5 below 1 (intercepts near 0)
+      expectRelativelyClose([fit.scale], [ref.lmrob.sScale], 1e-10);
       expect(fit.converged).toBe(true);
     });
   }

@@ -144,10 +144,10 @@ interface Points {
 function sortPoints(x: readonly number[], y: readonly number[]): Points {
   const n = x.length;
   const order = Int32Array.from({ length: n }, (_, i) => i);
-  const buffer = new Int32Array(n);
+  const scratch = mergeScratch(n);
   // Two stable passes: by y, then by x, give the (x, y) order.
-  mergeSort(order, Float64Array.from(y), buffer, null, null);
-  mergeSort(order, Float64Array.from(x), buffer, null, null);
+  mergeSort(order, Float64Array.from(y), scratch, null, null);
+  mergeSort(order, Float64Array.from(x), scratch, null, null);
   return { x: Float64Array.from(order, (i) => x[i]), y: Float64Array.from(order, (i) => y[i]) };
 }
 
@@ -271,7 +271,7 @@ function cusumTest(points: Points, intercept: number, slope: number, alpha: numb
   const position = new Float64Array(n);
   for (let i = 0; i < n; i++) position[i] = points.x[i] + slope * points.y[i];
   const order = Int32Array.from({ length: n }, (_, i) => i);
-  mergeSort(order, position, new Int32Array(n), null, null);
+  mergeSort(order, position, mergeScratch(n), null, null);
   const up = Math.sqrt(below / above);
   const down = Math.sqrt(above / below);
   let sum = 0;
@@ -377,7 +377,7 @@ class SelectedSlopes implements SlopeSet {
   private readonly keyHi: Float64Array;
   private readonly sequence: Int32Array;
   private readonly work: Int32Array;
-  private readonly buffer: Int32Array;
+  private readonly scratch: MergeScratch;
 
   constructor(points: Points) {
     this.points = points;
@@ -404,7 +404,7 @@ class SelectedSlopes implements SlopeSet {
     this.keyHi = new Float64Array(n);
     this.sequence = new Int32Array(n);
     this.work = new Int32Array(n);
-    this.buffer = new Int32Array(n);
+    this.scratch = mergeScratch(n);
 
     const minusOne = this.tieRanks(-1);
     this.belowMinusOne = minusOne.below;
@@ -539,7 +539,7 @@ class SelectedSlopes implements SlopeSet {
     for (let i = 0; i < this.n; i++) sequence[i] = i;
     if (lo !== -Infinity) {
       this.fillKey(lo, this.keyLo);
-      mergeSort(sequence, this.keyLo, this.buffer, null, null);
+      mergeSort(sequence, this.keyLo, this.scratch, null, null);
     }
     return sequence;
   }
@@ -551,7 +551,7 @@ class SelectedSlopes implements SlopeSet {
     const work = this.work;
     for (let i = 0; i < this.n; i++) work[i] = i;
     this.fillKey(t, this.keyHi);
-    return mergeSort(work, this.keyHi, this.buffer, null, null);
+    return mergeSort(work, this.keyHi, this.scratch, null, null);
   }
 
   /** The pairs with slope between lo and hi, listed or counted against `value`. */
@@ -560,7 +560,7 @@ class SelectedSlopes implements SlopeSet {
     this.work.set(sequence);
     this.fillKey(hi, this.keyHi);
     const sink = new PairSink(this.points.x, this.points.y, listing, value);
-    mergeSort(this.work, this.keyHi, this.buffer, null, sink);
+    mergeSort(this.work, this.keyHi, this.scratch, null, sink);
     return sink;
   }
 
@@ -591,7 +591,7 @@ class SelectedSlopes implements SlopeSet {
     work.set(sequence);
     this.fillKey(hi, this.keyHi);
     const earlierLarger = new Float64Array(n);
-    const total = mergeSort(work, this.keyHi, this.buffer, earlierLarger, null);
+    const total = mergeSort(work, this.keyHi, this.scratch, earlierLarger, null);
     // work is now sorted by the hi key (stably): rank of each point, and back.
     const rankOf = new Int32Array(n);
     for (let r = 0; r < n; r++) rankOf[work[r]] = r;
@@ -623,17 +623,21 @@ class SelectedSlopes implements SlopeSet {
  * Stable bottom-up merge sort of `items` by key[item], counting strict inversions
  * (pairs p before q with key[p] > key[q]). Optionally adds per item q the number of such p
  * to earlierLarger[q], and hands each run of such p with its q to `sink`. Returns the inversion count.
+ * The keys travel with the items (sequential memory access), in the scratch arrays of `scratch`.
  */
 function mergeSort(
   items: Int32Array,
   key: Float64Array,
-  buffer: Int32Array,
+  scratch: MergeScratch,
   earlierLarger: Float64Array | null,
   sink: PairSink | null,
 ): number {
   const n = items.length;
   let src = items;
-  let dst = buffer;
+  let dst = scratch.items;
+  let srcKey = scratch.keysA;
+  let dstKey = scratch.keysB;
+  for (let i = 0; i < n; i++) srcKey[i] = key[items[i]];
   let inversions = 0;
   for (let width = 1; width < n; width *= 2) {
     for (let start = 0; start < n; start += 2 * width) {
@@ -642,26 +646,51 @@ function mergeSort(
       let i = start;
       let j = mid;
       let k = start;
-      while (i < mid && j < end) {
-        if (key[src[j]] < key[src[i]]) {
-          const q = src[j];
-          inversions += mid - i;
-          if (earlierLarger) earlierLarger[q] += mid - i;
-          if (sink) sink.take(src, i, mid, q);
-          dst[k++] = src[j++];
-        } else {
-          dst[k++] = src[i++];
+      if (mid < end && srcKey[mid - 1] > srcKey[mid]) {
+        while (i < mid && j < end) {
+          if (srcKey[j] < srcKey[i]) {
+            const q = src[j];
+            inversions += mid - i;
+            if (earlierLarger) earlierLarger[q] += mid - i;
+            if (sink) sink.take(src, i, mid, q);
+            dstKey[k] = srcKey[j];
+            dst[k++] = src[j++];
+          } else {
+            dstKey[k] = srcKey[i];
+            dst[k++] = src[i++];
+          }
         }
       }
-      while (i < mid) dst[k++] = src[i++];
-      while (j < end) dst[k++] = src[j++];
+      // Already ordered blocks (common near the end of the search) are copied as they are.
+      for (; i < mid; i++, k++) {
+        dstKey[k] = srcKey[i];
+        dst[k] = src[i];
+      }
+      for (; j < end; j++, k++) {
+        dstKey[k] = srcKey[j];
+        dst[k] = src[j];
+      }
     }
     const swap = src;
     src = dst;
     dst = swap;
+    const swapKey = srcKey;
+    srcKey = dstKey;
+    dstKey = swapKey;
   }
   if (src !== items) items.set(src);
   return inversions;
+}
+
+/** Scratch arrays for mergeSort, sized for n items. */
+interface MergeScratch {
+  items: Int32Array;
+  keysA: Float64Array;
+  keysB: Float64Array;
+}
+
+function mergeScratch(n: number): MergeScratch {
+  return { items: new Int32Array(n), keysA: new Float64Array(n), keysB: new Float64Array(n) };
 }
 
 /**

@@ -470,6 +470,46 @@ export const attachments = pgTable(
   ],
 );
 
+export const IMPORT_SOURCES = ['csv', 'api'] as const;
+export type ImportSource = (typeof IMPORT_SOURCES)[number];
+
+/**
+ * One committed import of results (a CSV file through the browser, or a JSON upload through the results API):
+ * who or which token, how many rows, what was created or updated, the warnings shown, and the original file.
+ * A refused import writes nothing, so there is no log row for it; its errors went back in the answer.
+ */
+export const importLogs = pgTable(
+  'import_logs',
+  {
+    id: uuid('id').primaryKey().defaultRandom(),
+    laboratoryId: uuid('laboratory_id')
+      .notNull()
+      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    studyId: uuid('study_id')
+      .notNull()
+      .references(() => studies.id, { onDelete: 'cascade' }),
+    source: text('source', { enum: IMPORT_SOURCES }).notNull(),
+    attachmentId: uuid('attachment_id').references(() => attachments.id),
+    importedBy: text('imported_by').references(() => user.id),
+    tokenName: text('token_name'),
+    rowCount: integer('row_count').notNull(),
+    samplesCreated: integer('samples_created').notNull(),
+    samplesUpdated: integer('samples_updated').notNull(),
+    resultsWritten: integer('results_written').notNull(),
+    /** Column mapping, delimiter, decimal comma and the duplicate rule the import ran with. */
+    settings: jsonb('settings').notNull().default({}),
+    /** Warnings shown with the import (values outside the measuring interval, censored values), by line. */
+    warnings: jsonb('warnings').notNull().default([]),
+    createdAt: createdAt(),
+  },
+  (t) => [
+    index('import_logs_lab_study_idx').on(t.laboratoryId, t.studyId, t.createdAt),
+    check('import_logs_source_ck', inList('source', IMPORT_SOURCES)),
+    check('import_logs_actor_ck', sql`${t.importedBy} is not null or ${t.tokenName} is not null`),
+    check('import_logs_counts_ck', sql`${t.rowCount} >= 0 and ${t.samplesCreated} >= 0 and ${t.samplesUpdated} >= 0 and ${t.resultsWritten} >= 0`),
+  ],
+);
+
 /** Append-only and hash-chained: hash = sha256(prevHash + canonical content). */
 export const auditEvents = pgTable(
   'audit_events',

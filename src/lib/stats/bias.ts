@@ -237,18 +237,23 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
   let belowMinusOneEnd = 0;
   while (belowMinusOneEnd < kept && sortedSlopes[belowMinusOneEnd] < -1) belowMinusOneEnd++;
 
-  const counts = new Float64Array(n);
+  const counts = new Int32Array(n);
   const offsets = new Float64Array(n);
-  /** Mean of the slopes at 1-based weighted ranks `low` ≤ `high` of the sorted list. */
-  const meanAtRanks = (low: number, high: number) => {
-    let cumulative = 0;
-    let lowValue = Number.NaN;
-    for (let k = 0; k < kept; k++) {
+  /** Mean of the slopes at 1-based weighted ranks `low` ≤ `high`, scanning on from the slopes below −1 (weight `shift`). */
+  const meanAtRanks = (low: number, high: number, shift: number) => {
+    let cumulative = shift;
+    let k = belowMinusOneEnd;
+    while (k < kept) {
       cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
-      if (Number.isNaN(lowValue) && cumulative >= low) lowValue = sortedSlopes[k];
-      if (cumulative >= high) return (lowValue + sortedSlopes[k]) / 2;
+      if (cumulative >= low) break;
+      k++;
     }
-    return Number.NaN;
+    const lowValue = sortedSlopes[k];
+    while (cumulative < high && k < kept - 1) {
+      k++;
+      cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+    }
+    return cumulative >= high ? (lowValue + sortedSlopes[k]) / 2 : Number.NaN;
   };
   return (indices) => {
     const size = indices.length;
@@ -264,7 +269,7 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     if (total <= 0 || half + 1 + shift > total) {
       throw new StatsInputError('the resample has no usable shifted median slope (no slopes, or too many below −1)', { field: 'x' });
     }
-    const slope = total % 2 === 1 ? meanAtRanks(half + 1 + shift, half + 1 + shift) : meanAtRanks(half + shift, half + 1 + shift);
+    const slope = total % 2 === 1 ? meanAtRanks(half + 1 + shift, half + 1 + shift, shift) : meanAtRanks(half + shift, half + 1 + shift, shift);
     if (!Number.isFinite(slope)) {
       throw new StatsInputError('the resample\'s median slope is a vertical pair: too many samples share one x value', { field: 'x' });
     }

@@ -135,7 +135,12 @@ export interface SampleFlags {
   flags: DiagnosticFlag[];
 }
 
-/** Thresholds of the diagnostic flags (STATISTICS.md, Diagnostics). */
+/**
+ * Rules of the diagnostic flags (STATISTICS.md, Diagnostics).
+ *
+ * @example
+ * FLAG_RULES.highLeverage; // 'h > 2p/n'
+ */
 export const FLAG_RULES = {
   highLeverage: 'h > 2p/n',
   influential: "Cook's D > 4/n",

@@ -20,8 +20,6 @@ export interface LinearDesign {
   crossProductInverse(weights: Float64Array | null): number[][];
   /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. */
   hatDiagonal(weights: Float64Array | null): Float64Array;
-  /** Row i as a plain array. */
-  row(i: number): number[];
   /** The design made of the given rows only. */
   select(rows: readonly number[]): LinearDesign;
 }
@@ -60,13 +58,19 @@ export function createLineDesign(x: readonly number[] | Float64Array): LinearDes
     );
   }
 
-  /** Total weight, weighted mean of x and Σw(x − x̄)². */
+  /** Total weight, weighted mean of x and Σw(x − x̄)²; `weights` null means all 1. */
   function moments(weights: Float64Array | null): { sumW: number; meanX: number; sxx: number } {
+    if (weights === null) return unweighted ?? (unweighted = weightedMoments(new Float64Array(n).fill(1)));
+    return weightedMoments(weights);
+  }
+  let unweighted: { sumW: number; meanX: number; sxx: number } | undefined;
+
+  function weightedMoments(weights: Float64Array): { sumW: number; meanX: number; sxx: number } {
     let sumW = 0;
     let sumX = 0;
     let sumXX = 0;
     for (let i = 0; i < n; i++) {
-      const w = weights === null ? 1 : weights[i];
+      const w = weights[i];
       const dx = xs[i] - shiftX;
       sumW += w;
       sumX += w * dx;
@@ -77,34 +81,37 @@ export function createLineDesign(x: readonly number[] | Float64Array): LinearDes
     return { sumW, meanX: shiftX + sumX / sumW, sxx };
   }
 
+  // one loop per case, so that each stays monomorphic (null or a Float64Array) and fast
+  function weightedFit(y: Float64Array, weights: Float64Array): Float64Array {
+    const shiftY = y[0];
+    let sumW = 0;
+    let sumX = 0;
+    let sumY = 0;
+    let sumXX = 0;
+    let sumXY = 0;
+    for (let i = 0; i < n; i++) {
+      const w = weights[i];
+      const dx = xs[i] - shiftX;
+      const wdx = w * dx;
+      const dy = y[i] - shiftY;
+      sumW += w;
+      sumX += wdx;
+      sumY += w * dy;
+      sumXX += wdx * dx;
+      sumXY += wdx * dy;
+    }
+    const sxx = sumXX - (sumX * sumX) / sumW;
+    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
+    const slope = (sumXY - (sumX * sumY) / sumW) / sxx;
+    const meanX = shiftX + sumX / sumW;
+    const meanY = shiftY + sumY / sumW;
+    return Float64Array.of(meanY - slope * meanX, slope);
+  }
+
   return {
     n,
     p: 2,
-    solveWeighted(y, weights) {
-      const shiftY = y[0];
-      let sumW = 0;
-      let sumX = 0;
-      let sumY = 0;
-      let sumXX = 0;
-      let sumXY = 0;
-      for (let i = 0; i < n; i++) {
-        const w = weights === null ? 1 : weights[i];
-        const dx = xs[i] - shiftX;
-        const wdx = w * dx;
-        const dy = y[i] - shiftY;
-        sumW += w;
-        sumX += wdx;
-        sumY += w * dy;
-        sumXX += wdx * dx;
-        sumXY += wdx * dy;
-      }
-      const sxx = sumXX - (sumX * sumX) / sumW;
-      if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
-      const slope = (sumXY - (sumX * sumY) / sumW) / sxx;
-      const meanX = shiftX + sumX / sumW;
-      const meanY = shiftY + sumY / sumW;
-      return Float64Array.of(meanY - slope * meanX, slope);
-    },
+    solveWeighted: (y, weights) => weightedFit(y, weights ?? new Float64Array(n).fill(1)),
     solveExact(rows, y) {
       const [i, j] = rows;
       const dx = xs[j] - xs[i];
@@ -129,11 +136,11 @@ export function createLineDesign(x: readonly number[] | Float64Array): LinearDes
       const hat = new Float64Array(n);
       for (let i = 0; i < n; i++) {
         const d = xs[i] - meanX;
-        hat[i] = (weights === null ? 1 : weights[i]) * (1 / sumW + (d * d) / sxx);
+        hat[i] = 1 / sumW + (d * d) / sxx;
       }
+      if (weights !== null) for (let i = 0; i < n; i++) hat[i] *= weights[i];
       return hat;
     },
-    row: (i) => [1, xs[i]],
     select: (rows) => createLineDesign(rows.map((i) => xs[i])),
   };
 }
@@ -244,7 +251,6 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
       }
       return hat;
     },
-    row: (i) => rows[i].slice(),
     select: (subset) => createDesign(subset.map((i) => rows[i])),
   };
 }
@@ -339,10 +345,12 @@ export function medianAbs(values: Float64Array, scratch: Float64Array, near = 0)
     const high = near * 1.1;
     let below = 0;
     let m = 0;
+    // branch-free counting (the comparisons are unpredictable, so branches would be slow)
     for (let i = 0; i < n; i++) {
       const a = Math.abs(values[i]);
-      if (a < low) below++;
-      else if (a <= high) scratch[m++] = a;
+      scratch[m] = a;
+      m += +(a >= low) & +(a <= high);
+      below += +(a < low);
     }
     const firstRank = n % 2 === 1 ? half : half - 1;
     if (firstRank >= below && half < below + m) return middleOf(scratch, m, below, n);
@@ -351,14 +359,24 @@ export function medianAbs(values: Float64Array, scratch: Float64Array, near = 0)
   return middleOf(scratch, n, 0, n);
 }
 
-/** A plain array copy of a typed array (Array.from goes through the iterator protocol and is slow). */
+/**
+ * A plain array copy of a typed array (Array.from goes through the iterator protocol and is slow).
+ *
+ * @example
+ * toArray(Float64Array.of(1, 2)); // [1, 2]
+ */
 export function toArray(values: Float64Array): number[] {
   const out = new Array<number>(values.length);
   for (let i = 0; i < values.length; i++) out[i] = values[i];
   return out;
 }
 
-/** Normal consistency constant of the MAD, 0.6745 ≈ Φ⁻¹(0.75), as in R MASS::rlm. */
+/**
+ * Normal consistency constant of the MAD, 0.6745 ≈ Φ⁻¹(0.75), as in R MASS::rlm.
+ *
+ * @example
+ * medianAbs(residuals, scratch) / MAD_CONSTANT; // the MAD scale
+ */
 export const MAD_CONSTANT = 0.6745;
 
 /**

@@ -59,8 +59,9 @@ export function sandwichCovariance(
   let sumPsi2 = 0;
   let sumDeriv = 0;
   let sumDeriv2 = 0;
+  const inverseScale = 1 / scale;
   for (let i = 0; i < n; i++) {
-    const u = residuals[i] / scale;
+    const u = residuals[i] * inverseScale;
     const psi = norm.psi(u);
     const deriv = norm.psiDeriv(u);
     sumPsi2 += psi * psi;
@@ -118,7 +119,13 @@ function startingPoint(
   });
 }
 
-/** IRLS on a prepared design; the shared core of fitMEstimator, fitRobustLine and the MM step. */
+/**
+ * IRLS on a prepared design; the shared core of fitMEstimator, fitRobustLine and the MM step
+ * (MM passes `fixedScale` and its S-estimate as `start`, reported through `startKind`). Formulas as fitMEstimator.
+ *
+ * @example
+ * mEstimateOnDesign(createLineDesign(x), new Float64Array(y), huberNorm()).coefficients;
+ */
 export function mEstimateOnDesign(
   design: LinearDesign,
   y: Float64Array,
@@ -148,7 +155,8 @@ export function mEstimateOnDesign(
   let converged = false;
   while (iterations < maxIterations) {
     if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
-    for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] / scale);
+    const inverseScale = 1 / scale;
+    for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] * inverseScale);
     const next = design.solveWeighted(y, weights);
     design.residuals(y, next, residuals);
     iterations++;
@@ -209,7 +217,12 @@ export interface RobustLineOptions extends Omit<MEstimatorOptions, 'fixedScale'>
   tuning?: number[];
 }
 
-/** Copies an MEstimate of a line into a LineFit. */
+/**
+ * Copies an MEstimate of a line (coefficients intercept, slope) into a LineFit.
+ *
+ * @example
+ * lineFitFromMEstimate('huber', x.length, mEstimateOnDesign(createLineDesign(x), new Float64Array(y), huberNorm()));
+ */
 export function lineFitFromMEstimate(method: LineFit['method'], n: number, m: MEstimate): LineFit {
   const [[caa, cab], [, cbb]] = m.covariance;
   return {

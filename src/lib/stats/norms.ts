@@ -49,14 +49,13 @@ class HuberNorm implements RobustNorm {
     return a <= this.t ? (u * u) / 2 : this.t * a - (this.t * this.t) / 2;
   }
   psi(u: number): number {
-    return u > this.t ? this.t : u < -this.t ? -this.t : u;
+    return Math.max(-this.t, Math.min(this.t, u));
   }
   psiDeriv(u: number): number {
-    return Math.abs(u) <= this.t ? 1 : 0;
+    return +(Math.abs(u) <= this.t);
   }
   weight(u: number): number {
-    const a = Math.abs(u);
-    return a <= this.t ? 1 : this.t / a;
+    return Math.min(1, this.t / Math.abs(u)); // t/0 = ∞ gives the limit 1 at u = 0
   }
 }
 
@@ -85,8 +84,7 @@ class TukeyBisquareNorm implements RobustNorm {
     return (1 - z2) * (1 - 5 * z2);
   }
   weight(u: number): number {
-    if (Math.abs(u) > this.c) return 0;
-    const v = 1 - (u / this.c) ** 2;
+    const v = Math.max(0, 1 - (u / this.c) ** 2); // 0 beyond c
     return v * v;
   }
 }

@@ -22,7 +22,12 @@ export interface OlsResult {
   hat: number[];
 }
 
-/** Checks a confidence level in (0, 1). */
+/**
+ * Checks a confidence level in (0, 1).
+ *
+ * @example
+ * validateConfidence(95); // throws StatsInputError: confidence must be between 0 and 1 (got 95)
+ */
 export function validateConfidence(confidence: number): void {
   if (!Number.isFinite(confidence) || confidence <= 0 || confidence >= 1) {
     throw new StatsInputError(`confidence must be between 0 and 1 (got ${String(confidence)})`, {
@@ -34,6 +39,9 @@ export function validateConfidence(confidence: number): void {
 /**
  * Checks y against a design and returns it as a Float64Array; at least p + 1 rows so that a residual
  * scale exists.
+ *
+ * @example
+ * validateResponse(createDesign([[1, 0], [1, 1], [1, 2]]), [1, 2, 4]); // Float64Array [1, 2, 4]
  */
 export function validateResponse(design: LinearDesign, y: readonly number[]): Float64Array {
   if (y.length !== design.n) {
@@ -48,7 +56,12 @@ export function validateResponse(design: LinearDesign, y: readonly number[]): Fl
   return new Float64Array(y);
 }
 
-/** OLS on a prepared design (shared by the matrix and the line entry points). */
+/**
+ * OLS on a prepared design (shared by the matrix and the line entry points); formulas as olsRegression.
+ *
+ * @example
+ * olsOnDesign(createLineDesign([0, 1, 2]), Float64Array.of(1, 3, 5.5)).coefficients; // ≈ [0.917, 2.25]
+ */
 export function olsOnDesign(design: LinearDesign, y: Float64Array, confidence = 0.95): OlsResult {
   validateConfidence(confidence);
   const { n, p } = design;

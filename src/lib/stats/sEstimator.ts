@@ -234,7 +234,12 @@ function smallestScale(fits: Refined[]): Refined {
   return fits.reduce((best, fit) => (fit.scale < best.scale ? fit : best));
 }
 
-/** Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. */
+/**
+ * Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. Algorithm as fitSEstimator.
+ *
+ * @example
+ * sEstimateOnDesign(createLineDesign(x), new Float64Array(y), { seed: 7 }).scale;
+ */
 export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: SEstimatorOptions = {}): SEstimate {
   const {
     seed = 1,

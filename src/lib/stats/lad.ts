@@ -1,5 +1,5 @@
 import { StatsInputError } from './errors';
-import { MAD_CONSTANT, medianAbs } from './linear';
+import { MAD_CONSTANT, medianAbs, selectKth } from './linear';
 import { validateConfidence } from './ols';
 import { seededRandom } from './random';
 import type { LineFit } from './types';
@@ -22,28 +22,60 @@ function sumAbsResiduals(x: ArrayLike<number>, y: ArrayLike<number>, a: number, 
 /**
  * The best line through data point k: with the line forced through (x_k, y_k),
  * Σ|rᵢ| = Σ |xᵢ − x_k|·|sᵢ − b| with sᵢ the slope from k to i, so b is the weighted median of the sᵢ
- * with weights |xᵢ − x_k|, and the line then also passes through the point whose slope is that median.
+ * with weights |xᵢ − x_k| (the first slope, in increasing order, at which the cumulative weight reaches half),
+ * and the line then also passes through the point whose slope that is. The weighted median is found by
+ * three-way partitioning (weighted quickselect), in expected O(n).
  */
 function bestLineThrough(x: ArrayLike<number>, y: ArrayLike<number>, k: number): PivotLine | null {
-  const others: number[] = [];
-  const slopes = new Float64Array(x.length);
+  const n = x.length;
+  const slopes = new Float64Array(n);
+  const weights = new Float64Array(n);
+  const order = new Int32Array(n);
+  let m = 0;
   let totalWeight = 0;
-  for (let i = 0; i < x.length; i++) {
+  for (let i = 0; i < n; i++) {
     const dx = x[i] - x[k];
     if (dx === 0) continue;
     slopes[i] = (y[i] - y[k]) / dx;
-    totalWeight += Math.abs(dx);
-    others.push(i);
+    weights[i] = Math.abs(dx);
+    totalWeight += weights[i];
+    order[m++] = i;
   }
-  if (others.length === 0) return null;
-  others.sort((i, j) => slopes[i] - slopes[j]);
-  let cumulative = 0;
-  let median = others[others.length - 1];
-  for (const i of others) {
-    cumulative += Math.abs(x[i] - x[k]);
-    if (cumulative >= totalWeight / 2) {
-      median = i;
-      break;
+  if (m === 0) return null;
+  const half = totalWeight / 2;
+  let lo = 0;
+  let hi = m; // candidates are order[lo..hi)
+  let weightBelow = 0; // weight of the slopes known to be below the range
+  let median = -1;
+  while (median < 0) {
+    const pivot = slopes[order[lo + ((hi - lo) >> 1)]];
+    // three-way partition of order[lo..hi) into < pivot | = pivot | > pivot
+    let lt = lo;
+    let gt = hi;
+    let i = lo;
+    let weightLess = 0;
+    let weightEqual = 0;
+    while (i < gt) {
+      const index = order[i];
+      const slope = slopes[index];
+      if (slope < pivot) {
+        weightLess += weights[index];
+        order[i] = order[lt];
+        order[lt++] = index;
+        i++;
+      } else if (slope > pivot) {
+        order[i] = order[--gt];
+        order[gt] = index;
+      } else {
+        weightEqual += weights[index];
+        i++;
+      }
+    }
+    if (weightBelow + weightLess >= half) hi = lt;
+    else if (weightBelow + weightLess + weightEqual >= half) median = order[lt];
+    else {
+      weightBelow += weightLess + weightEqual;
+      lo = gt;
     }
   }
   const slope = slopes[median];
@@ -61,9 +93,11 @@ function bestLineThrough(x: ArrayLike<number>, y: ArrayLike<number>, k: number):
  */
 function ladCoefficients(x: ArrayLike<number>, y: ArrayLike<number>): { intercept: number; slope: number; iterations: number } {
   const n = x.length;
-  // start from the point of median x so that the first rotation already has data on both sides
-  const order = Array.from({ length: n }, (_, i) => i).sort((i, j) => x[i] - x[j]);
-  let line = bestLineThrough(x, y, order[n >> 1]) as PivotLine;
+  // start from a point of median x so that the first rotation already has data on both sides
+  const medianX = selectKth(Float64Array.from(x), n >> 1);
+  let start = 0;
+  while (x[start] !== medianX) start++;
+  let line = bestLineThrough(x, y, start) as PivotLine;
   let pivot = line.other;
   let iterations = 1;
   const maxIterations = 10 * n + 100;

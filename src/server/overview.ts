@@ -1,7 +1,7 @@
 /** What a laboratory's start page shows: its studies by state and its protocols, newest first. */
 import { desc, eq, sql } from 'drizzle-orm';
 import { getDb } from './db';
-import { protocols, protocolVersions, samples, studies } from '../db/schema';
+import { protocols, studies } from '../db/schema';
 
 export async function labOverview(laboratoryId: string) {
   const db = getDb();
@@ -13,7 +13,8 @@ export async function labOverview(laboratoryId: string) {
       verdict: studies.verdict,
       revision: studies.revision,
       updatedAt: studies.updatedAt,
-      samples: sql<number>`(select count(*)::int from ${samples} where ${samples.studyId} = ${studies.id})`,
+      // Correlated subqueries name their tables explicitly: inside sql`` Drizzle renders bare column names.
+      samples: sql<number>`(select count(*)::int from samples s where s.study_id = studies.id)`,
     })
     .from(studies)
     .where(eq(studies.laboratoryId, laboratoryId))
@@ -23,7 +24,7 @@ export async function labOverview(laboratoryId: string) {
       id: protocols.id,
       title: protocols.title,
       analyte: protocols.analyte,
-      latestVersion: sql<number>`(select max(${protocolVersions.versionNumber})::int from ${protocolVersions} where ${protocolVersions.protocolId} = ${protocols.id})`,
+      latestVersion: sql<number>`(select max(v.version_number)::int from protocol_versions v where v.protocol_id = protocols.id)`,
     })
     .from(protocols)
     .where(eq(protocols.laboratoryId, laboratoryId))

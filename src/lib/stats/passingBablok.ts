@@ -309,46 +309,72 @@ function pearson(points: Points): number | undefined {
 // ---------------------------------------------------------------------------------------------
 // Selection path.
 
-/** Counts of the slopes in a band below, equal to and in total, against a value v. */
-interface BandCount {
-  below: number;
-  equal: number;
-  total: number;
-}
+/**
+ * What a PairSink does with each slope: 'count' the slopes below and equal to `value`; 'list' those
+ * strictly between `from` and `to`; 'bin' them by the sorted distinct `edges` (bin 2i+1 holds
+ * edges[i] itself, bin 2i the slopes strictly between edges[i−1] and edges[i]).
+ */
+type SinkMode = 'count' | 'list' | 'bin';
 
 /**
- * Receives the pairs found by the merge sort, a run of earlier points at a time, and either
- * counts their slopes against `value` or lists them. One class, so the hot call stays monomorphic.
+ * Receives the pairs found by the merge sort, a run of earlier points at a time, and counts,
+ * lists or bins their slopes. One class, so that the hot call stays monomorphic.
  */
 class PairSink {
   below = 0;
   equal = 0;
   total = 0;
-  listed: Float64Array = new Float64Array(1024);
+  listed = new Float64Array(1024);
+  listedLength = 0;
+  readonly bins: Float64Array;
   constructor(
-    private readonly x: Float64Array,
-    private readonly y: Float64Array,
-    private readonly listing: boolean,
-    private readonly value: number,
-  ) {}
+    private readonly points: Points,
+    private readonly mode: SinkMode,
+    private readonly value = 0,
+    private readonly from = -Infinity,
+    private readonly to = Infinity,
+    private readonly edges: Float64Array = new Float64Array(0),
+  ) {
+    this.bins = new Float64Array(mode === 'bin' ? 2 * edges.length + 1 : 0);
+  }
 
-  take(items: Int32Array, from: number, to: number, q: number): void {
-    const { x, y, value } = this;
-    this.total += to - from;
-    if (this.listing && this.total > this.listed.length) {
-      const grown = new Float64Array(Math.max(2 * this.listed.length, this.total));
-      grown.set(this.listed);
-      this.listed = grown;
-    }
-    let length = this.total - (to - from);
-    for (let k = from; k < to; k++) {
+  take(items: Int32Array, start: number, end: number, q: number): void {
+    const { x, y } = this.points;
+    this.total += end - start;
+    for (let k = start; k < end; k++) {
       const p = items[k];
       // The pair in x order, so the slope is computed exactly as in pairSlope.
       const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
-      if (this.listing) this.listed[length++] = s;
-      else if (s < value) this.below++;
-      else if (s === value) this.equal++;
+      if (this.mode === 'count') {
+        if (s < this.value) this.below++;
+        else if (s === this.value) this.equal++;
+      } else if (this.mode === 'list') {
+        if (s > this.from && s < this.to) this.push(s);
+      } else {
+        this.bins[this.binOf(s)]++;
+      }
     }
+  }
+
+  binOf(s: number): number {
+    const edges = this.edges;
+    let low = 0;
+    let high = edges.length;
+    while (low < high) {
+      const mid = (low + high) >> 1;
+      if (edges[mid] < s) low = mid + 1;
+      else high = mid;
+    }
+    return low < edges.length && edges[low] === s ? 2 * low + 1 : 2 * low;
+  }
+
+  private push(s: number): void {
+    if (this.listedLength === this.listed.length) {
+      const grown = new Float64Array(2 * this.listed.length);
+      grown.set(this.listed);
+      this.listed = grown;
+    }
+    this.listed[this.listedLength++] = s;
   }
 }
 
@@ -370,7 +396,6 @@ class SelectedSlopes implements SlopeSet {
   private readonly marginPerSlope: number;
   private readonly listBudget: number;
   private readonly sampleSize: number;
-  private readonly tieCache = new Map<number, BandCount & { countLo: number }>();
   private firstSample: Float64Array | null = null;
   // Scratch buffers, reused by every pass.
   private readonly keyLo: Float64Array;
@@ -406,7 +431,7 @@ class SelectedSlopes implements SlopeSet {
     this.work = new Int32Array(n);
     this.scratch = mergeScratch(n);
 
-    const minusOne = this.tieRanks(-1);
+    const minusOne = this.countAgainst(-1);
     this.belowMinusOne = minusOne.below;
     this.equalMinusOne = minusOne.equal;
   }
@@ -433,6 +458,7 @@ class SelectedSlopes implements SlopeSet {
     let countLo = 0;
     let countHi = this.finiteCount;
     let sampleSize = this.sampleSize;
+    let stalled = false;
     for (let round = 0; round < 60; round++) {
       const between = countHi - countLo;
       if (between <= this.listBudget && this.listAndPick(lo, hi, kLow, kHigh, out)) return;
@@ -445,26 +471,25 @@ class SelectedSlopes implements SlopeSet {
       const fracHigh = (kHigh - countLo) / between;
       const iLow = Math.floor(fracLow * s - 3 * Math.sqrt(s * fracLow * (1 - fracLow)) - 3);
       const iHigh = Math.ceil(fracHigh * s + 3 * Math.sqrt(s * fracHigh * (1 - fracHigh)) + 3);
-      if (iLow >= 0 && iHigh < s && sample[iLow] === sample[iHigh]) {
-        // A tied slope value fills the window: settle the ranks that fall on it directly.
-        const v = sample[iLow];
-        const tie = this.tieRanks(v);
-        if (kLow > tie.below && kHigh <= tie.below + tie.equal) {
-          for (let k = kLow; k <= kHigh; k++) out.set(k, v);
+      const windowLow = sample[Math.max(iLow, 0)];
+      const windowHigh = sample[Math.min(iHigh, s - 1)];
+      if (stalled || windowHigh - windowLow <= 4 * this.margin(windowLow)) {
+        // Tied or nearly tied slopes (closer than rounding lets bounds separate): settle by value.
+        const edges = Float64Array.from(new Set(sample.subarray(Math.max(iLow, 0), Math.min(iHigh, s - 1) + 1)));
+        const band = this.pickInBand(edges, kLow, kHigh, out);
+        if (band.outcome === 'done') return;
+        if (band.outcome === 'split') {
+          for (let k = kLow; k <= kHigh; k++) this.selectRange(k, k, out);
           return;
         }
-        if (kLow < kHigh) {
-          this.selectRange(kLow, kLow, out);
-          this.selectRange(kHigh, kHigh, out);
-          return;
-        }
-        if (kHigh <= tie.below) {
-          hi = v - this.margin(v);
-          countHi = tie.countLo;
+        if (band.outcome === 'below') {
+          hi = edges[0];
+          countHi = band.count;
         } else {
-          lo = v + this.margin(v);
-          countLo = tie.countLo + tie.total;
+          lo = edges[edges.length - 1];
+          countLo = band.count;
         }
+        stalled = false;
         continue;
       }
       const newLo = iLow >= 1 ? (sample[iLow - 1] + sample[iLow]) / 2 : lo;
@@ -483,9 +508,55 @@ class SelectedSlopes implements SlopeSet {
           progressed = true;
         }
       }
-      if (!progressed) sampleSize *= 2;
+      if (!progressed) {
+        stalled = sampleSize >= 8 * this.sampleSize;
+        sampleSize *= 2;
+      }
     }
     throw new Error(`slope selection did not settle on ranks ${kLow}..${kHigh}`);
+  }
+
+  /**
+   * Settles ranks whose slopes lie in [edges[0], edges[last]] (sorted distinct sample values) by
+   * comparing slope values, not keys: the band widened by the rounding margin is counted per value
+   * bin in one pass; a rank on an edge value is that value, a rank between two edges is found by
+   * listing that gap. 'below': the ranks are below the first edge, `count` slopes are; 'above': they
+   * are above the last edge, `count` slopes are not; 'split': they need separate bands.
+   */
+  private pickInBand(
+    edges: Float64Array,
+    kLow: number,
+    kHigh: number,
+    out: Map<number, number>,
+  ): { outcome: 'done' | 'below' | 'above' | 'split'; count: number } {
+    const first = edges[0];
+    const last = edges[edges.length - 1];
+    const bandLo = first - this.margin(first);
+    const bandHi = last + this.margin(last);
+    const countLo = this.countBelow(bandLo);
+    const binned = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'bin', 0, -Infinity, Infinity, edges));
+    // Cumulative counts at the start of each bin; bin 0 and the last bin are outside [first, last].
+    const bins = binned.bins;
+    const ranks: Array<{ k: number; bin: number; before: number }> = [];
+    for (let k = kLow; k <= kHigh; k++) {
+      let before = countLo;
+      let bin = 0;
+      while (bin < bins.length && before + bins[bin] < k) before += bins[bin++];
+      ranks.push({ k, bin, before });
+    }
+    if (ranks.every((r) => r.bin === 0)) return { outcome: 'below', count: countLo + bins[0] };
+    if (ranks.every((r) => r.bin >= bins.length - 1)) return { outcome: 'above', count: countLo + binned.total - bins[bins.length - 1] };
+    if (ranks.some((r) => r.bin === 0 || r.bin >= bins.length - 1)) return { outcome: 'split', count: 0 };
+    for (const { k, bin, before } of ranks) {
+      if (bin % 2 === 1) {
+        out.set(k, edges[(bin - 1) / 2]);
+        continue;
+      }
+      const gap = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'list', 0, edges[bin / 2 - 1], edges[bin / 2]));
+      const sorted = gap.listed.subarray(0, gap.listedLength).sort();
+      out.set(k, sorted[k - before - 1]);
+    }
+    return { outcome: 'done', count: 0 };
   }
 
   /**
@@ -499,8 +570,8 @@ class SelectedSlopes implements SlopeSet {
     const wideLo = lo - marginLo;
     const wideHi = hi + marginHi;
     const countBelow = this.countBelow(wideLo);
-    const sink = this.pairsBetween(wideLo, wideHi, true, 0);
-    const sorted = sink.listed.subarray(0, sink.total).sort();
+    const sink = this.pairsBetween(wideLo, wideHi, new PairSink(this.points, 'list'));
+    const sorted = sink.listed.subarray(0, sink.listedLength).sort();
     for (let k = kLow; k <= kHigh; k++) {
       const index = k - countBelow - 1;
       if (index < 0 || index >= sorted.length) return false;
@@ -511,19 +582,11 @@ class SelectedSlopes implements SlopeSet {
     return true;
   }
 
-  /**
-   * Exact numbers of slopes below v and equal to v: those below v − margin by counting, the band
-   * v ± margin one by one. Also the count below the band and its size, to move a bound past it.
-   */
-  private tieRanks(v: number): BandCount & { countLo: number } {
-    const cached = this.tieCache.get(v);
-    if (cached) return cached;
+  /** Exact numbers of slopes below v and equal to v: below v − margin by counting, the band v ± margin one by one. */
+  private countAgainst(v: number): { below: number; equal: number } {
     const lo = v - this.margin(v);
-    const countLo = this.countBelow(lo);
-    const band = this.pairsBetween(lo, v + this.margin(v), false, v);
-    const result = { below: countLo + band.below, equal: band.equal, total: band.total, countLo };
-    this.tieCache.set(v, result);
-    return result;
+    const band = this.pairsBetween(lo, v + this.margin(v), new PairSink(this.points, 'count', v));
+    return { below: this.countBelow(lo) + band.below, equal: band.equal };
   }
 
   /** Key y − t·x of every point, in x order; ±∞ by their limiting orders. */
@@ -554,12 +617,11 @@ class SelectedSlopes implements SlopeSet {
     return mergeSort(work, this.keyHi, this.scratch, null, null);
   }
 
-  /** The pairs with slope between lo and hi, listed or counted against `value`. */
-  private pairsBetween(lo: number, hi: number, listing: boolean, value: number): PairSink {
+  /** Hands every pair with slope between lo and hi to `sink`. */
+  private pairsBetween(lo: number, hi: number, sink: PairSink): PairSink {
     const sequence = this.orderAt(lo);
     this.work.set(sequence);
     this.fillKey(hi, this.keyHi);
-    const sink = new PairSink(this.points.x, this.points.y, listing, value);
     mergeSort(this.work, this.keyHi, this.scratch, null, sink);
     return sink;
   }

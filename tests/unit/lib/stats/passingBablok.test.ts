@@ -148,6 +148,34 @@ describe('fitPassingBablok against the brute-force definition', () => {
     ]);
   });
 
+  // Values with two decimals: the slopes of pairs that are equal in decimal arithmetic scatter over
+  // neighbouring floating-point values, closer together than any bound on y − t·x can separate.
+  for (const [step, slope, seed] of [
+    [0.01, 1.1, 41],
+    [0.1, 2, 42],
+  ] as const) {
+    it(`decimal data (step ${step}, n = 2500, nearly tied slopes around ${slope}): selection equals the brute force`, () => {
+      const rng = seededRandom(seed);
+      const x: number[] = [];
+      const y: number[] = [];
+      for (let i = 0; i < 2500; i++) {
+        const truth = Math.round((5 + 45 * rng.next()) / step) * step;
+        x.push(Number(truth.toFixed(2)));
+        y.push(Number((Math.round((0.37 + slope * truth + 0.2 * step * normal(rng)) / step) * step).toFixed(2)));
+      }
+      const expected = bruteForce(x, y);
+      const fit = fitPassingBablok(x, y, { algorithm: 'selection' });
+      expect([fit.slope, fit.intercept, ...fit.slopeCI, ...fit.interceptCI, fit.shift, fit.slopeCount]).toEqual([
+        expected.slope,
+        expected.intercept,
+        ...expected.slopeCI,
+        ...expected.interceptCI,
+        expected.shift,
+        expected.slopeCount,
+      ]);
+    });
+  }
+
   it('larger continuous data (n = 1200): selection equals the brute force', () => {
     const { x, y } = line(1200, -2, 0.98, 2, 0)(seededRandom(77));
     const expected = bruteForce(x, y);

@@ -278,6 +278,12 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
   const settings: Settings = { subsamples, refinementSteps, bestCandidates, c, b, maxIterations, tolerance };
 
   const { n, p } = design;
+  if (n < 2 * p) {
+    throw new StatsInputError(
+      `the S-estimate needs at least ${2 * p} samples for ${p} coefficients (got ${n}): with fewer, every fit through ${p} samples leaves half the residuals at 0, so no robust scale exists`,
+      { field: 'y' },
+    );
+  }
   const rng = seededRandom(seed);
   let result: Refined;
   if (n > largeSample && searchSubsetSize < n) {

@@ -63,6 +63,10 @@ describe('S-estimate properties', () => {
     expect(() => fitSEstimator(x.map((v) => [1, v]), y)).toThrow(/robust scale is 0/);
   });
 
+  it('needs at least 2p samples', () => {
+    expect(() => fitSEstimator([[1, 1], [1, 2], [1, 3]], [1.1, 2.3, 2.9])).toThrow(/at least 4 samples for 2 coefficients \(got 3\)/);
+  });
+
   it.each([
     ['subsamples 0', { subsamples: 0 }, /subsamples must be a whole number/],
     ['b outside (0, 1)', { b: 1.5 }, /b must be between 0 and 1/],

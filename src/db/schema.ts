@@ -551,3 +551,38 @@ export const outgoingMail = pgTable(
     check('outgoing_mail_status_ck', sql`${t.status} in ('sent', 'failed')`),
   ],
 );
+
+export const JOB_STATUSES = ['queued', 'running', 'done', 'failed'] as const;
+
+/**
+ * What the pages show of long work (bootstrap intervals, report PDFs, large imports). pg-boss schedules
+ * and retries the work; this row carries its progress and outcome for the people waiting on it.
+ */
+export const jobs = pgTable(
+  'jobs',
+  {
+    id: uuid('id').primaryKey().defaultRandom(),
+    laboratoryId: uuid('laboratory_id')
+      .notNull()
+      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    studyId: uuid('study_id').references(() => studies.id, { onDelete: 'cascade' }),
+    kind: text('kind').notNull(),
+    status: text('status', { enum: JOB_STATUSES }).notNull().default('queued'),
+    /** 0 to 1. */
+    progress: doublePrecision('progress').notNull().default(0),
+    message: text('message'),
+    payload: jsonb('payload').notNull().default({}),
+    /** Id of what the job made (an analysis run, an attachment), once done. */
+    resultId: text('result_id'),
+    error: text('error'),
+    attempts: integer('attempts').notNull().default(0),
+    createdBy: text('created_by').references(() => user.id),
+    createdAt: createdAt(),
+    updatedAt: updatedAt(),
+  },
+  (t) => [
+    index('jobs_lab_study_idx').on(t.laboratoryId, t.studyId, t.kind),
+    check('jobs_status_ck', inList('status', JOB_STATUSES)),
+    check('jobs_progress_ck', sql`${t.progress} >= 0 and ${t.progress} <= 1`),
+  ],
+);

@@ -19,6 +19,17 @@ function sumAbsResiduals(x: ArrayLike<number>, y: ArrayLike<number>, a: number, 
   return sum;
 }
 
+/** Buffers reused by every rotation of one data set's fit. */
+interface Workspace {
+  slopes: Float64Array;
+  weights: Float64Array;
+  order: Int32Array;
+}
+
+function workspace(n: number): Workspace {
+  return { slopes: new Float64Array(n), weights: new Float64Array(n), order: new Int32Array(n) };
+}
+
 /**
  * The best line through data point k: with the line forced through (x_k, y_k),
  * Σ|rᵢ| = Σ |xᵢ − x_k|·|sᵢ − b| with sᵢ the slope from k to i, so b is the weighted median of the sᵢ
@@ -26,11 +37,9 @@ function sumAbsResiduals(x: ArrayLike<number>, y: ArrayLike<number>, a: number, 
  * and the line then also passes through the point whose slope that is. The weighted median is found by
  * three-way partitioning (weighted quickselect), in expected O(n).
  */
-function bestLineThrough(x: ArrayLike<number>, y: ArrayLike<number>, k: number): PivotLine | null {
+function bestLineThrough(x: ArrayLike<number>, y: ArrayLike<number>, k: number, work: Workspace): PivotLine | null {
   const n = x.length;
-  const slopes = new Float64Array(n);
-  const weights = new Float64Array(n);
-  const order = new Int32Array(n);
+  const { slopes, weights, order } = work;
   let m = 0;
   let totalWeight = 0;
   for (let i = 0; i < n; i++) {
@@ -91,18 +100,25 @@ function bestLineThrough(x: ArrayLike<number>, y: ArrayLike<number>, k: number):
  * piecewise linear, so a vertex that no rotation improves is a global minimum). When the minimum is not unique,
  * one optimal line through two data points is returned.
  */
-function ladCoefficients(x: ArrayLike<number>, y: ArrayLike<number>): { intercept: number; slope: number; iterations: number } {
+function ladCoefficients(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  work: Workspace,
+  start = -1,
+): { intercept: number; slope: number; iterations: number; pivot: number } {
   const n = x.length;
-  // start from a point of median x so that the first rotation already has data on both sides
-  const medianX = selectKth(Float64Array.from(x), n >> 1);
-  let start = 0;
-  while (x[start] !== medianX) start++;
-  let line = bestLineThrough(x, y, start) as PivotLine;
+  if (start < 0) {
+    // start from a point of median x so that the first rotation already has data on both sides
+    const medianX = selectKth(Float64Array.from(x), n >> 1);
+    start = 0;
+    while (x[start] !== medianX) start++;
+  }
+  let line = bestLineThrough(x, y, start, work) as PivotLine;
   let pivot = line.other;
   let iterations = 1;
   const maxIterations = 10 * n + 100;
   while (iterations < maxIterations) {
-    const rotated = bestLineThrough(x, y, pivot) as PivotLine;
+    const rotated = bestLineThrough(x, y, pivot, work) as PivotLine;
     iterations++;
     if (rotated.sumAbs < line.sumAbs) {
       pivot = rotated.other;
@@ -114,7 +130,7 @@ function ladCoefficients(x: ArrayLike<number>, y: ArrayLike<number>): { intercep
     let improved: PivotLine | null = null;
     for (let i = 0; i < n && !improved; i++) {
       if (i === pivot || Math.abs(y[i] - line.intercept - line.slope * x[i]) > tolerance) continue;
-      const candidate = bestLineThrough(x, y, i);
+      const candidate = bestLineThrough(x, y, i, work);
       iterations++;
       if (candidate && candidate.sumAbs < line.sumAbs - tolerance) improved = candidate;
     }
@@ -122,7 +138,7 @@ function ladCoefficients(x: ArrayLike<number>, y: ArrayLike<number>): { intercep
     pivot = improved.other;
     line = improved;
   }
-  return { intercept: line.intercept, slope: line.slope, iterations };
+  return { intercept: line.intercept, slope: line.slope, iterations, pivot };
 }
 
 /** Type-7 quantile (R's default) of sorted values. */
@@ -156,7 +172,8 @@ export function fitLadLine(
     });
   }
   const n = x.length;
-  const fit = ladCoefficients(x, y);
+  const work = workspace(n);
+  const fit = ladCoefficients(x, y, work);
 
   const rng = seededRandom(seed);
   const bx = new Float64Array(n);
@@ -165,14 +182,16 @@ export function fitLadLine(
   const slopes = new Float64Array(resamples);
   for (let r = 0; r < resamples; ) {
     let varies = false;
+    let start = -1; // warm start: rotate first about the full-data fit's pivot sample when it was drawn
     for (let i = 0; i < n; i++) {
       const j = rng.int(n);
       bx[i] = x[j];
       by[i] = y[j];
       if (bx[i] !== bx[0]) varies = true;
+      if (j === fit.pivot) start = i;
     }
     if (!varies) continue;
-    const boot = ladCoefficients(bx, by);
+    const boot = ladCoefficients(bx, by, work, start);
     intercepts[r] = boot.intercept;
     slopes[r] = boot.slope;
     r++;

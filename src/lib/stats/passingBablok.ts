@@ -341,17 +341,32 @@ class PairSink {
   take(items: Int32Array, start: number, end: number, q: number): void {
     const { x, y } = this.points;
     this.total += end - start;
-    for (let k = start; k < end; k++) {
-      const p = items[k];
-      // The pair in x order, so the slope is computed exactly as in pairSlope.
-      const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
-      if (this.mode === 'count') {
+    // The pair in x order, so that the slope is computed exactly as in pairSlope.
+    if (this.mode === 'count') {
+      for (let k = start; k < end; k++) {
+        const p = items[k];
+        const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
         if (s < this.value) this.below++;
         else if (s === this.value) this.equal++;
-      } else if (this.mode === 'list') {
+      }
+    } else if (this.mode === 'list') {
+      for (let k = start; k < end; k++) {
+        const p = items[k];
+        const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
         if (s > this.from && s < this.to) this.push(s);
-      } else {
-        this.bins[this.binOf(s)]++;
+      }
+    } else {
+      // Tied slopes come in long runs: reuse the last bin while the value repeats.
+      let lastSlope = NaN;
+      let lastBin = 0;
+      for (let k = start; k < end; k++) {
+        const p = items[k];
+        const s = p < q ? (y[q] - y[p]) / (x[q] - x[p]) : (y[p] - y[q]) / (x[p] - x[q]);
+        if (s !== lastSlope) {
+          lastSlope = s;
+          lastBin = this.binOf(s);
+        }
+        this.bins[lastBin]++;
       }
     }
   }
@@ -438,6 +453,16 @@ class SelectedSlopes implements SlopeSet {
 
   select(ranks: number[]): Map<number, number> {
     const result = new Map<number, number>();
+    // Heavily tied data: when all the ranks sit in one cluster of (nearly) equal slopes,
+    // one pass over that cluster settles them together.
+    if (ranks.length > 1 && this.finiteCount > this.listBudget) {
+      const sample = this.sampleAll();
+      const window = sampleWindow(sample, ranks[0] / this.finiteCount, ranks[ranks.length - 1] / this.finiteCount);
+      if (window.high - window.low <= 4 * this.margin(window.low)) {
+        if (this.pickInBand(window.edges, ranks, result).outcome === 'done') return result;
+        result.clear();
+      }
+    }
     for (let g = 0; g < ranks.length; ) {
       let end = g + 1;
       while (end < ranks.length && ranks[end] - ranks[end - 1] <= 1) end++;
@@ -467,16 +492,11 @@ class SelectedSlopes implements SlopeSet {
           ? this.sampleAll()
           : this.sampleBetween(lo, hi, Math.min(sampleSize, between));
       const s = sample.length;
-      const fracLow = (kLow - countLo) / between;
-      const fracHigh = (kHigh - countLo) / between;
-      const iLow = Math.floor(fracLow * s - 3 * Math.sqrt(s * fracLow * (1 - fracLow)) - 3);
-      const iHigh = Math.ceil(fracHigh * s + 3 * Math.sqrt(s * fracHigh * (1 - fracHigh)) + 3);
-      const windowLow = sample[Math.max(iLow, 0)];
-      const windowHigh = sample[Math.min(iHigh, s - 1)];
-      if (stalled || windowHigh - windowLow <= 4 * this.margin(windowLow)) {
+      const window = sampleWindow(sample, (kLow - countLo) / between, (kHigh - countLo) / between);
+      const { iLow, iHigh, edges } = window;
+      if (stalled || window.high - window.low <= 4 * this.margin(window.low)) {
         // Tied or nearly tied slopes (closer than rounding lets bounds separate): settle by value.
-        const edges = Float64Array.from(new Set(sample.subarray(Math.max(iLow, 0), Math.min(iHigh, s - 1) + 1)));
-        const band = this.pickInBand(edges, kLow, kHigh, out);
+        const band = this.pickInBand(edges, rangeOf(kLow, kHigh), out);
         if (band.outcome === 'done') return;
         if (band.outcome === 'split') {
           for (let k = kLow; k <= kHigh; k++) this.selectRange(k, k, out);
@@ -525,8 +545,7 @@ class SelectedSlopes implements SlopeSet {
    */
   private pickInBand(
     edges: Float64Array,
-    kLow: number,
-    kHigh: number,
+    wanted: number[],
     out: Map<number, number>,
   ): { outcome: 'done' | 'below' | 'above' | 'split'; count: number } {
     const first = edges[0];
@@ -538,7 +557,7 @@ class SelectedSlopes implements SlopeSet {
     // Cumulative counts at the start of each bin; bin 0 and the last bin are outside [first, last].
     const bins = binned.bins;
     const ranks: Array<{ k: number; bin: number; before: number }> = [];
-    for (let k = kLow; k <= kHigh; k++) {
+    for (const k of wanted) {
       let before = countLo;
       let bin = 0;
       while (bin < bins.length && before + bins[bin] < k) before += bins[bin++];
@@ -769,4 +788,23 @@ function fenwickKth(tree: Int32Array, topStep: number, k: number): number {
     }
   }
   return position;
+}
+
+/** kLow, kLow + 1, …, kHigh. */
+function rangeOf(kLow: number, kHigh: number): number[] {
+  return Array.from({ length: kHigh - kLow + 1 }, (_, i) => kLow + i);
+}
+
+/**
+ * The stretch of a sorted sample that holds the fractions fracLow..fracHigh of the population
+ * with high probability (3 binomial SDs and 3 more draws each side), its end values (clamped to
+ * the sample) and its distinct values.
+ */
+function sampleWindow(sample: Float64Array, fracLow: number, fracHigh: number) {
+  const s = sample.length;
+  const iLow = Math.floor(fracLow * s - 3 * Math.sqrt(s * fracLow * (1 - fracLow)) - 3);
+  const iHigh = Math.ceil(fracHigh * s + 3 * Math.sqrt(s * fracHigh * (1 - fracHigh)) + 3);
+  const first = Math.max(iLow, 0);
+  const last = Math.min(iHigh, s - 1);
+  return { iLow, iHigh, low: sample[first], high: sample[last], edges: Float64Array.from(new Set(sample.subarray(first, last + 1))) };
 }

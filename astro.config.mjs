@@ -11,6 +11,8 @@ if (process.env.PUBLIC_BASE_URL) allowedHosts.add(new URL(process.env.PUBLIC_BAS
 
 export default defineConfig({
   output: 'server',
+  // Several checkouts' builds can live side by side (parallel test runs); the default is dist/.
+  outDir: process.env.BIASWISE_BUILD_DIR ?? './dist',
   adapter: node({ mode: 'standalone' }),
   integrations: [react()],
   server: { host: '127.0.0.1', port: 4321 },
@@ -26,6 +28,8 @@ export default defineConfig({
       MAIL_FROM: envField.string({ context: 'server', access: 'secret', default: 'Biaswise <no-reply@biaswise.invalid>' }),
       /** Sign-in attempts one client address may make per minute. */
       SIGN_IN_LIMIT_PER_MINUTE: envField.number({ context: 'server', access: 'secret', default: 30, int: true, gt: 0 }),
+      /** Whether this app server also runs the background jobs (bootstrap intervals, report PDFs). */
+      RUN_WORKERS: envField.boolean({ context: 'server', access: 'secret', default: true }),
       /** Folder where the local SMTP fake keeps messages; when set, administrators get a mailbox page. */
       MAIL_CAPTURE_DIR: envField.string({ context: 'server', access: 'secret', optional: true }),
     },

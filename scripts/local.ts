@@ -1,6 +1,7 @@
 /** Where the project keeps its local services: one place, so start, seed, stop and the tests agree. */
 import { randomBytes } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { ensureCluster } from './postgres';
 
@@ -10,6 +11,9 @@ export const APP_CLUSTER_DIR = `${DATA_DIR}/postgres`;
 export const APP_DB_PORT = 54329;
 export const APP_SMTP_PORT = 54325;
 export const APP_WEB_PORT = 4321;
+/** Where `astro build` writes (BIASWISE_BUILD_DIR, as in astro.config.mjs), and the server entry inside it. */
+export const BUILD_DIR = resolve(ROOT, process.env.BIASWISE_BUILD_DIR ?? 'dist');
+export const SERVER_ENTRY = `${BUILD_DIR}/server/entry.mjs`;
 
 /** DATABASE_URL when the lab set one; otherwise the project's own cluster, started if needed. */
 export async function appDatabaseUrl(): Promise<string> {

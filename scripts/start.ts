@@ -7,7 +7,7 @@ import { spawn, spawnSync } from 'node:child_process';
 import { createDatabase } from '../src/db/client';
 import { applyMigrations } from './migrate';
 import { DEMO_LAB, DEMO_PASSWORD, DEMO_PEOPLE, isEmpty, seedDemo } from './demo';
-import { APP_SMTP_PORT, APP_WEB_PORT, DATA_DIR, ROOT, appDatabaseUrl, authSecret } from './local';
+import { APP_SMTP_PORT, APP_WEB_PORT, DATA_DIR, ROOT, SERVER_ENTRY, appDatabaseUrl, authSecret } from './local';
 import { startSmtpFake } from './smtp-fake';
 
 const dev = process.argv.includes('--dev');
@@ -46,7 +46,7 @@ if (!dev) {
 
 const server = dev
   ? spawn('npx', ['astro', 'dev', '--host', host, '--port', String(port)], { cwd: ROOT, stdio: 'inherit', env })
-  : spawn(process.execPath, ['dist/server/entry.mjs'], { cwd: ROOT, stdio: 'inherit', env });
+  : spawn(process.execPath, [SERVER_ENTRY], { cwd: ROOT, stdio: 'inherit', env });
 
 console.log(`
 Biaswise is running at http://${host}:${port}

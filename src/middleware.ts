@@ -2,12 +2,14 @@ import { defineMiddleware } from 'astro:middleware';
 import { getAuth } from './server/auth';
 import { labBySlug, laboratoryForToken, membershipsOf } from './server/laboratories';
 import { notFound, problemResponse, Problem, unauthenticated } from './server/problem';
+import { ensureWorkers } from './server/workers';
 
 const LAB_ROUTE = /^\/(api\/)?labs\/([^/]+)/;
 
 /** Session → locals, and the laboratory in the URL checked against the caller's memberships. */
 export const onRequest = defineMiddleware(async (context, next) => {
   const { locals, url, request } = context;
+  ensureWorkers();
   locals.user = null;
   locals.session = null;
   locals.memberships = [];

@@ -7,7 +7,7 @@ import { rmSync } from 'node:fs';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { seedDemo } from '../../scripts/demo';
-import { ROOT } from '../../scripts/local';
+import { ROOT, SERVER_ENTRY } from '../../scripts/local';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
 import { startSmtpFake } from '../../scripts/smtp-fake';
 import { E2E_PORTS } from './ports';
@@ -22,7 +22,7 @@ await seedDemo(db);
 await db.$client.end();
 const smtp = await startSmtpFake({ port: E2E_PORTS.smtp, dir: E2E_DIRS.mail });
 
-const server = spawn(process.execPath, ['dist/server/entry.mjs'], {
+const server = spawn(process.execPath, [SERVER_ENTRY], {
   cwd: ROOT,
   stdio: 'inherit',
   env: {

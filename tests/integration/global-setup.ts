@@ -9,7 +9,7 @@ import { createServer } from 'node:net';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
-import { DATA_DIR, ROOT } from '../../scripts/local';
+import { DATA_DIR, ROOT, SERVER_ENTRY } from '../../scripts/local';
 import { startSmtpFake } from '../../scripts/smtp-fake';
 
 async function freePort(): Promise<number> {
@@ -38,7 +38,7 @@ async function waitForHealth(url: string, seconds: number) {
 }
 
 export default async function setup() {
-  const entry = `${ROOT}dist/server/entry.mjs`;
+  const entry = SERVER_ENTRY;
   if (!existsSync(entry)) throw new Error('Integration tests need the built server: run `npx astro build` first (npm test does).');
   const dataDir = `${DATA_DIR}/test-integration-${process.pid}`;
   const mailDir = `${DATA_DIR}/test-integration-mail-${process.pid}`;

@@ -1,0 +1,10 @@
+import { rowSaveSchema } from '../../../../../../../lib/resultSchemas';
+import { endpoint, json, requireLab } from '../../../../../../../server/endpoint';
+import { parseBody, readJson } from '../../../../../../../server/problem';
+import { saveRow } from '../../../../../../../server/results';
+
+export const PUT = endpoint(async ({ locals, params, request }) => {
+  const { lab, user } = requireLab(locals, 'results.enter');
+  const body = parseBody(rowSaveSchema, await readJson(request));
+  return json(await saveRow({ userId: user.id, tokenName: null }, lab.id, params.id, params.sampleId!, body));
+});

@@ -1,0 +1,231 @@
+/**
+ * Studies: opened by a lab scientist from an approved protocol version (candidate and comparative procedure,
+ * assigned technicians), and moved between states only through the transition table below, so the sign-off
+ * work adds its transitions in one place.
+ */
+import { and, asc, desc, eq, inArray, sql } from 'drizzle-orm';
+import { getDb } from './db';
+import { memberships, protocolVersions, protocols, samples, studies, studyAssignments, user, type StudyState } from '../db/schema';
+import { recordAudit, type Executor } from './audit';
+import { can, type Action } from './permissions';
+import { conflict, forbidden, invalid, notFound, Problem } from './problem';
+import { getApprovedVersion } from './protocols';
+import type { Role } from '../db/schema';
+import type { ProtocolSettings } from '../lib/protocolSchema';
+import type { Procedure, StudyOpen } from '../lib/resultSchemas';
+import type { ResultRules } from '../lib/resultParsing';
+import type { Database } from '../db/client';
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+
+/**
+ * Whether an id can name a row (a malformed id names nothing, and never reaches PostgreSQL's uuid parser).
+ *
+ * @example
+ * isUuid('not-an-id'); // false
+ */
+export const isUuid = (id: string | undefined): id is string => !!id && UUID.test(id);
+
+/**
+ * Every state change a study can make: from which state, to which, who may do it and what the audit trail says.
+ *
+ * @example
+ * STUDY_TRANSITIONS.start_collecting.to; // 'collecting'
+ */
+export const STUDY_TRANSITIONS = {
+  start_collecting: { from: 'draft', to: 'collecting', action: 'study.open', audit: 'study.collecting_started', label: 'Start collecting results' },
+} as const satisfies Record<string, { from: StudyState; to: StudyState; action: Action; audit: string; label: string }>;
+/**
+ * The name of a study transition.
+ *
+ * @example
+ * const transition: StudyTransition = 'start_collecting';
+ */
+export type StudyTransition = keyof typeof STUDY_TRANSITIONS;
+
+/**
+ * The transitions a role may take from a state (what the study page offers).
+ *
+ * @example
+ * availableTransitions('draft', 'lab_scientist'); // ['start_collecting']
+ */
+export function availableTransitions(state: StudyState, role: Role | null): StudyTransition[] {
+  return (Object.keys(STUDY_TRANSITIONS) as StudyTransition[]).filter((key) => STUDY_TRANSITIONS[key].from === state && can(role, STUDY_TRANSITIONS[key].action));
+}
+
+/** What a protocol version's settings say about the results a study takes. */
+export function resultRulesOf(settings: ProtocolSettings): ResultRules {
+  return { units: settings.analyte.units, measuringInterval: settings.analyte.measuringInterval, replicates: settings.samplePlan.replicates };
+}
+
+/**
+ * Opens a study in Draft from an approved protocol version, with the technicians who will enter results.
+ *
+ * @example
+ * const study = await openStudy(user.id, lab.id, studyOpenSchema.parse(body));
+ */
+export async function openStudy(actorId: string, laboratoryId: string, body: StudyOpen) {
+  const version = await getApprovedVersion(laboratoryId, body.protocolVersionId);
+  const technicianIds = [...new Set(body.technicianIds)];
+  return getDb().transaction(async (tx) => {
+    if (technicianIds.length > 0) {
+      const found = await tx
+        .select({ userId: memberships.userId })
+        .from(memberships)
+        .where(and(eq(memberships.laboratoryId, laboratoryId), eq(memberships.role, 'technician'), inArray(memberships.userId, technicianIds)));
+      const known = new Set(found.map((f) => f.userId));
+      const errors = technicianIds
+        .map((id, index) => ({ id, index }))
+        .filter(({ id }) => !known.has(id))
+        .map(({ index }) => ({ field: `technicianIds.${index}`, message: 'This person is not a technician of this laboratory.' }));
+      if (errors.length > 0) throw invalid('Only technicians of this laboratory can be assigned.', errors);
+    }
+    const [study] = await tx
+      .insert(studies)
+      .values({
+        laboratoryId,
+        protocolVersionId: version.id,
+        title: body.title,
+        candidateProcedure: body.candidate,
+        comparativeProcedure: body.comparative,
+        createdBy: actorId,
+      })
+      .returning();
+    if (technicianIds.length > 0) await tx.insert(studyAssignments).values(technicianIds.map((userId) => ({ studyId: study.id, userId })));
+    await recordAudit(tx, {
+      laboratoryId,
+      actorUserId: actorId,
+      action: 'study.opened',
+      entityType: 'study',
+      entityId: study.id,
+      data: { title: body.title, protocolVersionId: version.id, protocolVersionNumber: version.versionNumber, candidate: body.candidate, comparative: body.comparative, technicianIds },
+    });
+    return study;
+  });
+}
+
+/**
+ * The laboratory's studies, newest first, with their protocol and sample count.
+ *
+ * @example
+ * const rows = await listStudies(lab.id); // [{ id, title, state, protocolTitle, versionNumber, samples, updatedAt }]
+ */
+export async function listStudies(laboratoryId: string) {
+  return getDb()
+    .select({
+      id: studies.id,
+      title: studies.title,
+      state: studies.state,
+      verdict: studies.verdict,
+      revision: studies.revision,
+      updatedAt: studies.updatedAt,
+      protocolTitle: protocols.title,
+      analyte: protocols.analyte,
+      versionNumber: protocolVersions.versionNumber,
+      samples: sql<number>`(select count(*)::int from ${samples} where ${samples.studyId} = ${studies.id})`,
+    })
+    .from(studies)
+    .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
+    .innerJoin(protocols, eq(protocols.id, protocolVersions.protocolId))
+    .where(eq(studies.laboratoryId, laboratoryId))
+    .orderBy(desc(studies.updatedAt));
+}
+
+/**
+ * One study of the laboratory with its protocol version's settings and assigned technicians, or a 404 Problem.
+ *
+ * @example
+ * const { study, settings, technicians } = await getStudy(lab.id, params.id);
+ */
+export async function getStudy(laboratoryId: string, studyId: string | undefined) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const db = getDb();
+  const [row] = await db
+    .select({ study: studies, settings: protocolVersions.settings, versionNumber: protocolVersions.versionNumber, protocolId: protocols.id, protocolTitle: protocols.title })
+    .from(studies)
+    .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
+    .innerJoin(protocols, eq(protocols.id, protocolVersions.protocolId))
+    .where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId)));
+  if (!row) throw notFound('study');
+  const technicians = await db
+    .select({ id: user.id, name: user.name })
+    .from(studyAssignments)
+    .innerJoin(user, eq(user.id, studyAssignments.userId))
+    .where(eq(studyAssignments.studyId, studyId))
+    .orderBy(asc(user.name));
+  const settings = row.settings as ProtocolSettings;
+  return {
+    study: { ...row.study, candidateProcedure: row.study.candidateProcedure as Procedure, comparativeProcedure: row.study.comparativeProcedure as Procedure },
+    settings,
+    rules: resultRulesOf(settings),
+    protocol: { id: row.protocolId, title: row.protocolTitle, versionNumber: row.versionNumber },
+    technicians,
+  };
+}
+
+/**
+ * The laboratory's technicians (whom a new study may be assigned to).
+ *
+ * @example
+ * const people = await labTechnicians(lab.id); // [{ id, name }]
+ */
+export async function labTechnicians(laboratoryId: string) {
+  return getDb()
+    .select({ id: user.id, name: user.name })
+    .from(memberships)
+    .innerJoin(user, eq(user.id, memberships.userId))
+    .where(and(eq(memberships.laboratoryId, laboratoryId), eq(memberships.role, 'technician')))
+    .orderBy(asc(user.name));
+}
+
+/**
+ * Moves a study through one transition from the version the person saw (409 on a stale version or a state the
+ * transition does not start from; 403 when the role may not take it).
+ *
+ * @example
+ * await transitionStudy({ id: user.id, role: 'lab_scientist' }, lab.id, studyId, 'start_collecting', 1);
+ */
+export async function transitionStudy(actor: { id: string; role: Role | null }, laboratoryId: string, studyId: string | undefined, transition: StudyTransition, expectedVersion: number) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const step = STUDY_TRANSITIONS[transition];
+  if (!can(actor.role, step.action)) throw forbidden(step.label.toLowerCase());
+  return getDb().transaction(async (tx) => {
+    const [current] = await tx.select().from(studies).where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId))).for('update');
+    if (!current) throw notFound('study');
+    if (current.version !== expectedVersion) throw conflict('This study was changed by someone else; reload to see its state.', { current: { state: current.state, version: current.version } });
+    if (current.state !== step.from) {
+      throw new Problem(409, 'Not possible in this state', `"${step.label}" starts from ${step.from}; this study is ${current.state}.`, undefined, { current: { state: current.state, version: current.version } });
+    }
+    const [updated] = await tx
+      .update(studies)
+      .set({ state: step.to, version: current.version + 1, updatedAt: new Date() })
+      .where(eq(studies.id, studyId))
+      .returning();
+    await recordAudit(tx, { laboratoryId, actorUserId: actor.id, action: step.audit, entityType: 'study', entityId: studyId, data: { from: step.from, to: step.to } });
+    return updated;
+  });
+}
+
+type Tx = Parameters<Parameters<Database['transaction']>[0]>[0];
+
+/**
+ * Locks a study for a change to its results and returns it with its rules; results change only while the study
+ * is collecting (409 otherwise). Every results write takes this lock first, so writes to one study are serial.
+ *
+ * @example
+ * const { study, rules } = await lockCollectingStudy(tx, lab.id, studyId);
+ */
+export async function lockCollectingStudy(tx: Tx & Executor, laboratoryId: string, studyId: string | undefined) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const [row] = await tx
+    .select({ study: studies, settings: protocolVersions.settings })
+    .from(studies)
+    .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
+    .where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId)))
+    .for('update', { of: studies });
+  if (!row) throw notFound('study');
+  if (row.study.state !== 'collecting') {
+    throw new Problem(409, 'Study not collecting results', `Results can be entered only while the study is collecting results; this study is ${row.study.state.replace('_', ' ')}.`);
+  }
+  return { study: row.study, rules: resultRulesOf(row.settings as ProtocolSettings) };
+}

@@ -12,7 +12,7 @@ export interface PassingBablokOptions {
   linearityAlpha?: number;
   /**
    * 'direct' lists every pairwise slope (O(n²) memory), 'selection' finds the needed order
-   * statistics without listing them (O(n) memory); 'auto' uses 'direct' up to 200 pairs.
+   * statistics without listing them (O(n) memory); 'auto' uses 'direct' up to 200 samples.
    * Both give identical results.
    */
   algorithm?: 'auto' | 'direct' | 'selection';
@@ -57,6 +57,8 @@ const DIRECT_LIMIT = 200;
  * Appl 1992): the number of slopes below t is the number of inversions of y − t·x in x order,
  * counted by merge sort; random slopes between two bounds are drawn as random inversions; the bounds
  * close in on the wanted ranks until the few slopes between them can be listed and sorted.
+ * Tied or nearly tied slopes (rounded data), which no bound can separate, are settled by comparing
+ * slope values in one pass over their cluster, so that case takes time in proportion to its size.
  * Floating-point care: bounds are widened by a margin far above rounding error and the selected
  * slope must lie well inside them, so the result equals sorting every slope computed as above.
  *
@@ -580,8 +582,9 @@ class SelectedSlopes implements SlopeSet {
 
   /**
    * Lists the slopes between the bounds widened by the rounding margin, sorts them and picks the
-   * ranks; refuses (returns false) unless each picked slope lies clear of both widened bounds,
-   * which guarantees that no slope was put on the wrong side of a bound by rounding.
+   * ranks; refuses (returns false) when too many slopes lie within the widened bounds, or unless each
+   * picked slope lies clear of both widened bounds, which guarantees that no slope was put on the
+   * wrong side of a bound by rounding.
    */
   private listAndPick(lo: number, hi: number, kLow: number, kHigh: number, out: Map<number, number>): boolean {
     const marginLo = Number.isFinite(lo) ? this.margin(lo) : 0;
@@ -589,6 +592,8 @@ class SelectedSlopes implements SlopeSet {
     const wideLo = lo - marginLo;
     const wideHi = hi + marginHi;
     const countBelow = this.countBelow(wideLo);
+    // A bound on a tie cluster can put far more pairs inside the margins than between the bounds.
+    if (this.countBelow(wideHi) - countBelow > 2 * this.listBudget) return false;
     const sink = this.pairsBetween(wideLo, wideHi, new PairSink(this.points, 'list'));
     const sorted = sink.listed.subarray(0, sink.listedLength).sort();
     for (let k = kLow; k <= kHigh; k++) {

@@ -25,7 +25,7 @@ import {
 import { fitDeming, fitWeightedDeming, lambdaFromDuplicates } from './deming';
 import { diagnosticFlags, regressionDiagnostics, type RegressionDiagnostics, type SampleFlags } from './diagnostics';
 import { StatsInputError } from './errors';
-import { generalizedEsd, maxOutliersForShare } from './esd';
+import { generalizedEsd, maxOutliersForShare, type EsdStep } from './esd';
 import { fitLadLine } from './lad';
 import { fitRobustLine } from './mEstimator';
 import { fitMMLine } from './mm';
@@ -118,7 +118,8 @@ export interface ComparisonAnalysis {
     robust: Partial<Record<MethodKey, { hat: number[]; weights: number[]; flags: SampleFlags[] }>>;
   };
   robustWeights: Partial<Record<MethodKey, number[]>>;
-  esd: { alpha: number; maxOutliers: number; outlierIndices: number[]; outlierSampleIds: string[]; outlierCount: number };
+  /** Generalized ESD screen of the absolute differences; `steps` are the test's steps in removal order. */
+  esd: { alpha: number; maxOutliers: number; outlierIndices: number[]; outlierSampleIds: string[]; outlierCount: number; steps: EsdStep[] };
   bootstrap: { resamples: number; method: BootstrapMethod; failedResamples: Partial<Record<MethodKey, number>> } | null;
   biasAtDecisionLevels: DecisionLevelBias[];
   cautions: Caution[];
@@ -206,13 +207,15 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
   }
 
   const maxOutliers = maxOutliersForShare(n, ESD_MAX_SHARE);
-  const outlierIndices = maxOutliers > 0 ? [...generalizedEsd(absolute.differences, { alpha: ESD_ALPHA, maxOutliers }).outlierIndices].sort((a, b) => a - b) : [];
+  const screen = maxOutliers > 0 ? generalizedEsd(absolute.differences, { alpha: ESD_ALPHA, maxOutliers }) : { outlierIndices: [], steps: [] };
+  const outlierIndices = [...screen.outlierIndices].sort((a, b) => a - b);
   const esd = {
     alpha: ESD_ALPHA,
     maxOutliers,
     outlierIndices,
     outlierSampleIds: outlierIndices.map((i) => sampleIds[i]),
     outlierCount: outlierIndices.length,
+    steps: screen.steps,
   };
 
   const bootstrapSettings = input.bootstrap === false ? null : { resamples: input.bootstrap?.resamples ?? 2000, method: input.bootstrap?.method ?? 'bca' };
@@ -229,7 +232,7 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
     ...nonNull(leverageCaution(sampleIds, olsDiagnostics.hat)),
     ...redescendingCautions(startComparisons, x, y),
     ...nonNull(downWeightCaution(sampleIds, robustWeights)),
-    ...(fits.passingBablok ? passingBablokCautions({ correlation, cusum: fits.passingBablok.cusum }) : []),
+    ...(methods.includes('passingBablok') ? passingBablokCautions({ correlation, cusum: fits.passingBablok?.cusum }) : []),
     ...nonNull(esdCaution(sampleIds, absolute.differences, outlierIndices, ESD_ALPHA)),
     ...nonNull(extrapolationCaution(levels, x)),
   );

@@ -138,6 +138,15 @@ describe('analyzeComparison cautions', () => {
     expect(analysis.cautions.find((c) => c.code === 'decision-level-outside-range')?.message).toContain('2000');
   });
 
+  it('negatively related procedures: Passing–Bablok fails with a reason and its assumption caution still fires', () => {
+    const study = cleanStudy();
+    const analysis = analyzeComparison({ ...study, candidate: study.comparative.map((v, i) => 400 - v + 0.6 * Math.sin(2.3 * i)), bootstrap: false });
+    const codes = analysis.cautions.map((c) => c.code);
+    expect(codes).toContain('passing-bablok-negative-correlation');
+    expect(analysis.fitErrors.passingBablok).toBeDefined();
+    expect(codes).toContain('method-failed');
+  });
+
   it('plan and exclusions: fewer than planned, poor spread against the plan interval, more than 2.5 % excluded', () => {
     const analysis = analyzeComparison({
       ...cleanStudy(),

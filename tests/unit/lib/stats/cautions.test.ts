@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import {
   STANDING_CAUTION,
+  bootstrapFailureCaution,
+  methodFailedCaution,
   correlationCaution,
   downWeightCaution,
   esdCaution,
@@ -212,5 +214,16 @@ describe('standing caution and number format', () => {
     expect(formatNumber(0.96234)).toBe('0.9623');
     expect(formatNumber(126)).toBe('126');
     expect(formatNumber(-14.38361)).toBe('-14.38');
+  });
+});
+
+describe('fits and bootstraps that fail', () => {
+  it('a method that could not be computed says why', () => {
+    const caution = methodFailedCaution('passingBablok', 'every pairwise slope is exactly −1');
+    expect(caution.message).toBe('Passing–Bablok could not be computed: every pairwise slope is exactly −1.');
+  });
+  it('skipped bootstrap resamples are counted, and nothing is said when none failed', () => {
+    expect(bootstrapFailureCaution('mm', 12, 2000)?.message).toContain('12 of 2000');
+    expect(bootstrapFailureCaution('mm', 0, 2000)).toBeNull();
   });
 });

@@ -1,0 +1,1 @@
+-- A signed study is frozen in the database itself (triggers written below).

@@ -34,6 +34,9 @@ export const isUuid = (id: string | undefined): id is string => !!id && UUID.tes
  */
 export const STUDY_TRANSITIONS = {
   start_collecting: { from: 'draft', to: 'collecting', action: 'study.open', audit: 'study.collecting_started', label: 'Start collecting results' },
+  // Taken only through the sign-off service (src/server/signoff.ts), which checks the analysis and the signature.
+  submit_for_sign_off: { from: 'collecting', to: 'in_review', action: 'study.submit', audit: 'study.submitted_for_sign_off', label: 'Submit for sign-off' },
+  sign: { from: 'in_review', to: 'signed', action: 'study.sign', audit: 'study.signed', label: 'Sign the study' },
 } as const satisfies Record<string, { from: StudyState; to: StudyState; action: Action; audit: string; label: string }>;
 /**
  * The name of a study transition.

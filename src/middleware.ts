@@ -1,10 +1,23 @@
 import { defineMiddleware } from 'astro:middleware';
+import { PUBLIC_BASE_URL } from 'astro:env/server';
 import { getAuth } from './server/auth';
 import { labBySlug, laboratoryForToken, membershipsOf } from './server/laboratories';
 import { notFound, problemResponse, Problem, unauthenticated } from './server/problem';
 import { ensureWorkers } from './server/workers';
 
 const LAB_ROUTE = /^\/(api\/)?labs\/([^/]+)/;
+const SAFE_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
+
+/**
+ * A browser always names the page's origin on a cross-site request; refuse every unsafe request that names
+ * another one (Astro's own check covers only form content types). Clients without an Origin header (scripts,
+ * LIS middleware with tokens) are not browsers and are unaffected.
+ */
+function crossOrigin(request: Request, url: URL): boolean {
+  if (SAFE_METHODS.has(request.method)) return false;
+  const origin = request.headers.get('origin');
+  return origin !== null && origin !== url.origin && origin !== new URL(PUBLIC_BASE_URL).origin;
+}
 
 /** Session → locals, and the laboratory in the URL checked against the caller's memberships. */
 export const onRequest = defineMiddleware(async (context, next) => {
@@ -18,6 +31,9 @@ export const onRequest = defineMiddleware(async (context, next) => {
   locals.viaApiToken = false;
 
   const path = url.pathname;
+  if (crossOrigin(request, url)) {
+    return problemResponse(new Problem(403, 'Cross-site request refused', 'This request came from another site and was refused.'));
+  }
   if (path.startsWith('/_astro/') || path.startsWith('/api/auth/') || path === '/api/health' || path === '/favicon.svg') {
     return next();
   }

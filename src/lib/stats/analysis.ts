@@ -1,5 +1,5 @@
 import { allowableLimitAt, validateAllowableLimit, type AllowableLimit } from './allowable';
-import { biasAtLevel, biasIntervalKind, biasVerdict, bootstrapBiasIntervals, hasBootstrapRefit, percentBiasInterval, type BiasVerdict } from './bias';
+import { biasAtLevel, biasIntervalKind, biasVerdict, bootstrapBiasIntervals, percentBiasInterval, type BiasVerdict } from './bias';
 import type { BootstrapMethod } from './bootstrap';
 import { blandAltman, type BlandAltmanResult } from './blandAltman';
 import {
@@ -330,7 +330,7 @@ function biasTable(
       if (point.ci && point.percentCI) Object.assign(entry, { ci: point.ci, percentCI: point.percentCI, ciMethod: 'closed-form' });
       return entry;
     });
-    if (biasIntervalKind(method) === 'bootstrap' && bootstrap && hasBootstrapRefit(method)) {
+    if (biasIntervalKind(method) === 'bootstrap' && bootstrap) {
       try {
         const result = bootstrapBiasIntervals(x, y, fit, levels, { ...bootstrap, seed, tuning });
         failedResamples[method] = result.failedResamples;

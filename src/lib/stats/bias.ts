@@ -1,5 +1,6 @@
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { StatsInputError } from './errors';
+import { ladLine } from './lad';
 import { madScale, selectKth } from './linear';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
@@ -110,16 +111,6 @@ const REFIT_TOLERANCE = 1e-6;
 const REFIT_MAX_ITERATIONS = 200;
 
 /**
- * Whether {@link bootstrapBiasIntervals} can refit this estimator (LAD cannot yet: its exact solver is not exported).
- *
- * @example
- * hasBootstrapRefit('passingBablok'); // true
- */
-export function hasBootstrapRefit(method: MethodKey): boolean {
-  return method === 'passingBablok' || method === 'huber' || method === 'tukey' || method === 'hampel' || method === 'mm';
-}
-
-/**
  * Warm-started refit for the bootstrap of a robust fit, by the same IRLS as the full fit (u = r/s, weights w(u),
  * weighted least squares, stop at a relative change ‖Δβ‖/‖β‖ of 1e-6) but returning only the coefficients, with
  * every buffer allocated once per bootstrap rather than once per resample.
@@ -143,7 +134,7 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   } else if (fit.method === 'huber' || fit.method === 'tukey' || fit.method === 'hampel') {
     norm = normByKey(fit.method, tuning?.[fit.method]);
   } else {
-    throw new StatsInputError(`the ${fit.method} fit has no robust bootstrap refit`, { field: 'fit.method' });
+    throw new StatsInputError(`the ${fit.method} fit takes its bias CI in closed form, not from the bootstrap`, { field: 'fit.method' });
   }
   const n = x.length;
   // x is centred at the full-data mean so that one-pass weighted sums stay accurate
@@ -302,11 +293,28 @@ function passingBablokFullRefit(x: readonly number[], y: readonly number[]): Ind
   };
 }
 
+/** Exact LAD line of each resample; the two value buffers per resample size are made once. */
+function ladRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
+  const buffers = new Map<number, { xs: number[]; ys: number[] }>();
+  return (indices) => {
+    const size = indices.length;
+    let buffer = buffers.get(size);
+    if (!buffer) {
+      buffer = { xs: new Array<number>(size), ys: new Array<number>(size) };
+      buffers.set(size, buffer);
+    }
+    for (let i = 0; i < size; i++) {
+      buffer.xs[i] = x[indices[i]];
+      buffer.ys[i] = y[indices[i]];
+    }
+    const line = ladLine(buffer.xs, buffer.ys);
+    return [line.intercept, line.slope];
+  };
+}
+
 function refitFor(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
   if (fit.method === 'passingBablok') return x.length <= SORTED_SLOPES_LIMIT ? passingBablokRefit(x, y) : passingBablokFullRefit(x, y);
-  if (!hasBootstrapRefit(fit.method)) {
-    throw new StatsInputError(`the ${fit.method} fit has no bootstrap refit`, { field: 'fit.method' });
-  }
+  if (fit.method === 'lad') return ladRefit(x, y);
   return robustRefit(fit, x, y, tuning);
 }
 

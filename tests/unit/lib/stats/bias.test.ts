@@ -7,6 +7,7 @@ import { fitDeming } from '../../../../src/lib/stats/deming';
 import { tQuantile } from '../../../../src/lib/stats/distributions';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 import { fitRobustLine } from '../../../../src/lib/stats/mEstimator';
+import { fitLadLine, ladLine } from '../../../../src/lib/stats/lad';
 import { fitMMLine } from '../../../../src/lib/stats/mm';
 import { fitOlsLine } from '../../../../src/lib/stats/ols';
 import { fitPassingBablok } from '../../../../src/lib/stats/passingBablok';
@@ -162,6 +163,16 @@ describe('bootstrapBiasIntervals', () => {
     }
   });
 
+  it('LAD: each resample is refitted with the exact LAD line', () => {
+    const fit = fitLadLine(x, y);
+    const ours = bootstrapBiasIntervals(x, y, fit, levels, { seed: 6, resamples: 200, method: 'percentile' });
+    const reference = fullRefitPercentile(x, y, ladLine, 6, 200);
+    levels.forEach((_, k) => {
+      expect(ours.intervals[k][0]).toBeCloseTo(reference[k][0], 9);
+      expect(ours.intervals[k][1]).toBeCloseTo(reference[k][1], 9);
+    });
+  });
+
   it('is deterministic for a seed and brackets the point estimate for MM (BCa)', () => {
     const fit = fitMMLine(x, y, { seed: 1 });
     const a = bootstrapBiasIntervals(x, y, fit, levels, { seed: 9, resamples: 300 });
@@ -186,6 +197,6 @@ describe('bootstrapBiasIntervals', () => {
   });
 
   it('refuses a closed-form fit', () => {
-    expect(() => bootstrapBiasIntervals(x, y, fitOlsLine(x, y), levels)).toThrow(StatsInputError);
+    expect(() => bootstrapBiasIntervals(x, y, fitOlsLine(x, y), levels)).toThrow(/closed form/);
   });
 });

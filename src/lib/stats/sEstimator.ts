@@ -23,9 +23,10 @@ export interface SEstimatorOptions {
    * the scale is stationary at the optimum, so its error is of the order of the square of this.
    */
   tolerance?: number;
-  /** Above this many samples the subsampling stage runs on a random subset (the full data is used for the final refinement). */
-  largeSample?: number;
-  /** Size of that subset. */
+  /**
+   * Above this many samples the subsampling stage runs on a seeded random subset of this size, and only the
+   * winner there is refined on all the data.
+   */
   searchSubsetSize?: number;
 }
 
@@ -250,14 +251,12 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
     b = 0.5,
     maxIterations = 200,
     tolerance = 1e-7,
-    largeSample = 2000,
     searchSubsetSize = 500,
   } = opts;
   for (const [field, value] of [
     ['subsamples', subsamples],
     ['bestCandidates', bestCandidates],
     ['maxIterations', maxIterations],
-    ['largeSample', largeSample],
   ] as const) {
     if (!Number.isInteger(value) || value < 1) {
       throw new StatsInputError(`${field} must be a whole number of at least 1 (got ${value})`, { field });
@@ -286,7 +285,7 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
   }
   const rng = seededRandom(seed);
   let result: Refined;
-  if (n > largeSample && searchSubsetSize < n) {
+  if (n > searchSubsetSize) {
     // large n: search and refine on a random subset, then refine the winner on all the data
     const rows = sampleWithoutReplacement(n, searchSubsetSize, rng);
     const subset = design.select(rows);
@@ -331,9 +330,8 @@ function sampleWithoutReplacement(n: number, k: number, rng: SeededRandom): numb
  * seeded random elemental subsamples of p rows, a few I-steps each, the best few kept (ranked by M-scale,
  * skipping a candidate when Σρ(r/s_worst)/(n − p) ≥ b shows it cannot enter), each kept one refined to convergence,
  * and the one with the smallest M-scale returned. Bisquare ρ with c = 1.548, b = 0.5: 50 % breakdown.
- * Above `largeSample` (2,000) samples, the subsampling and ranking run on a seeded random subset of
- * `searchSubsetSize` (500) samples, as the large-n variant of fast-S does with subgroups, and the best fit there is
- * refined to convergence on all the data.
+ * Above `searchSubsetSize` (500) samples, the subsampling and ranking run on a seeded random subset of that size,
+ * as the large-n variant of fast-S does with subgroups, and the best fit there is refined to convergence on all the data.
  * The same seed always gives the same result.
  *
  * @example

@@ -52,7 +52,7 @@ describe('S-estimate properties', () => {
     const y = x.map((v) => 0.2 + 1.03 * v + (rng.next() - 0.5) + (rng.next() < 0.2 ? 15 : 0));
     const X = x.map((v) => [1, v]);
     const subsetSearch = fitSEstimator(X, y);
-    const fullSearch = fitSEstimator(X, y, { largeSample: n });
+    const fullSearch = fitSEstimator(X, y, { searchSubsetSize: n });
     expectRelativelyClose(subsetSearch.coefficients, fullSearch.coefficients, 1e-6);
     expect(subsetSearch.scale).toBeCloseTo(fullSearch.scale, 8);
   });

@@ -4,6 +4,7 @@
  */
 import { RUN_WORKERS } from 'astro:env/server';
 import { startWorkers } from './jobs';
+import './analysisJobs';
 
 let ensured = false;
 

@@ -1,0 +1,461 @@
+/**
+ * Analysis runs: the statistics engine run on a study's included samples with its protocol's settings, stored
+ * with the sha256 of the canonical inputs (data, exclusions, settings, engine version) so that a run is reused
+ * while nothing changed and is marked stale once something does. The quick part (every fit, diagnostics,
+ * Bland–Altman, cautions, closed-form CIs) is computed at once; the bootstrap CIs run as a queued job
+ * (analysisJobs.ts). Exclusions of samples are audited with their reason and reversible until sign-off.
+ */
+import { and, asc, desc, eq, isNull, ne } from 'drizzle-orm';
+import { getDb } from './db';
+import { analysisRuns, auditEvents, exclusions, results, samples, studies, user } from '../db/schema';
+import { recordAudit } from './audit';
+import { enqueueJob, getJob, type JobRow } from './jobs';
+import { invalid, notFound, Problem } from './problem';
+import { sha256 } from './laboratories';
+import { getStudy, isUuid } from './studies';
+import { canonicalJson } from '../lib/canonicalJson';
+import type { ProtocolSettings } from '../lib/protocolSchema';
+import {
+  ALL_METHODS,
+  DEFAULT_METHODS,
+  ENGINE_VERSION,
+  StatsInputError,
+  analyzeComparison,
+  type AllowableLimit,
+  type ComparisonAnalysis,
+  type ComparisonInput,
+  type MethodKey,
+} from '../lib/stats/index';
+
+/** The kind of the queued job that computes the bootstrap CIs of a run. */
+export const BOOTSTRAP_JOB_KIND = 'analysis-bootstrap';
+
+/** One analysed sample: averaged values and, with duplicates, both replicates (they feed λ). */
+export interface IncludedSample {
+  sampleId: string;
+  code: string;
+  comparative: number;
+  candidate: number;
+  replicates?: { comparative: [number, number]; candidate: [number, number] };
+}
+
+/** The protocol settings an analysis depends on. */
+export interface AnalysisSettings {
+  methods: MethodKey[];
+  primary: MethodKey;
+  decisionLevels: { value: number; meaning: string; allowableBias: AllowableLimit & { source: string } }[];
+  robust: ProtocolSettings['robust'];
+  demingLambda: ProtocolSettings['demingLambda'];
+  outlierPolicy: ProtocolSettings['outlierPolicy'];
+  bootstrap: { resamples: number; seed: number; method: 'bca' };
+  plan: { plannedCount: number; measuringInterval: [number, number]; targetShares?: [number, number, number] };
+  units: string;
+}
+
+/** Everything an analysis is computed from; its canonical JSON is what the inputs hash covers. */
+export interface StudyInputs {
+  engineVersion: string;
+  studyId: string;
+  included: IncludedSample[];
+  excluded: { sampleId: string; code: string; reason: string }[];
+  /** Samples the analysis cannot use (a censored or missing result), each with the automatic note. */
+  leftOut: { sampleId: string; code: string; note: string }[];
+  settings: AnalysisSettings;
+}
+
+/** What a run stores as its results: the engine's analysis, the inputs it came from, the bootstrap's state. */
+export interface StoredResults {
+  analysis: ComparisonAnalysis;
+  inputs: StudyInputs;
+  bootstrap: { status: 'pending' | 'done' | 'failed'; jobId: string | null; resamples: number; error?: string };
+}
+
+export type AnalysisRunRow = typeof analysisRuns.$inferSelect;
+
+const average = (values: number[]) => values.reduce((sum, v) => sum + v, 0) / values.length;
+
+/**
+ * The methods a study runs: the engine's default set, plus the protocol's primary estimator when it is not in it,
+ * in the engine's reporting order.
+ *
+ * @example
+ * methodsFor('weightedDeming'); // ['ols', 'deming', 'weightedDeming', 'passingBablok', 'huber', 'tukey', 'hampel', 'mm']
+ */
+export function methodsFor(primary: MethodKey): MethodKey[] {
+  return ALL_METHODS.filter((m) => DEFAULT_METHODS.includes(m) || m === primary);
+}
+
+function settingsOf(settings: ProtocolSettings): AnalysisSettings {
+  const parts = settings.samplePlan.intervalParts;
+  const shares = parts.length === 3 ? (parts.map((p) => p.share) as [number, number, number]) : undefined;
+  return {
+    methods: methodsFor(settings.primaryEstimator.method),
+    primary: settings.primaryEstimator.method,
+    decisionLevels: settings.decisionLevels.map((level) => ({
+      value: level.value,
+      meaning: level.meaning,
+      allowableBias: { ...level.allowableBias },
+    })),
+    robust: settings.robust,
+    demingLambda: settings.demingLambda,
+    outlierPolicy: settings.outlierPolicy,
+    bootstrap: { resamples: settings.bootstrap.resamples, seed: settings.bootstrap.seed, method: 'bca' },
+    plan: {
+      plannedCount: settings.samplePlan.count,
+      measuringInterval: [settings.analyte.measuringInterval.low, settings.analyte.measuringInterval.high],
+      ...(shares ? { targetShares: shares } : {}),
+    },
+    units: settings.analyte.units,
+  };
+}
+
+/**
+ * The canonical inputs of a study's analysis: included pairs (replicates averaged per procedure; both duplicates
+ * kept when there are exactly two of each, for λ), excluded samples with their reasons, samples left out because
+ * a result is censored ("<5", ">600") or missing, the protocol settings and the engine version.
+ *
+ * @example
+ * const inputs = await studyInputs(lab.id, studyId);
+ * inputs.included.length; // samples the engine will see
+ */
+export async function studyInputs(laboratoryId: string, studyId: string): Promise<StudyInputs> {
+  const { study, settings } = await getStudy(laboratoryId, studyId);
+  const db = getDb();
+  const sampleRows = await db
+    .select({ id: samples.id, code: samples.code })
+    .from(samples)
+    .where(and(eq(samples.laboratoryId, laboratoryId), eq(samples.studyId, study.id)))
+    .orderBy(asc(samples.position), asc(samples.code));
+  const resultRows = await db
+    .select({ sampleId: results.sampleId, procedure: results.procedure, replicate: results.replicate, value: results.value, censored: results.censored })
+    .from(results)
+    .where(and(eq(results.laboratoryId, laboratoryId), eq(results.studyId, study.id)))
+    .orderBy(asc(results.replicate));
+  const standing = await db
+    .select({ sampleId: exclusions.sampleId, reason: exclusions.reason })
+    .from(exclusions)
+    .where(and(eq(exclusions.laboratoryId, laboratoryId), eq(exclusions.studyId, study.id), isNull(exclusions.revokedAt)));
+  const reasonOf = new Map(standing.map((e) => [e.sampleId, e.reason]));
+
+  const inputs: StudyInputs = { engineVersion: ENGINE_VERSION, studyId: study.id, included: [], excluded: [], leftOut: [], settings: settingsOf(settings) };
+  for (const sample of sampleRows) {
+    const reason = reasonOf.get(sample.id);
+    if (reason !== undefined) {
+      inputs.excluded.push({ sampleId: sample.id, code: sample.code, reason });
+      continue;
+    }
+    const own = resultRows.filter((r) => r.sampleId === sample.id);
+    const censored = own.filter((r) => r.censored !== null);
+    if (censored.length > 0) {
+      const shown = censored.map((r) => `${r.procedure} replicate ${r.replicate} reported as ${r.censored}${r.value}`).join('; ');
+      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: ${shown} (a value beyond a limit is not a number to fit).` });
+      continue;
+    }
+    const comparative = own.filter((r) => r.procedure === 'comparative').map((r) => r.value);
+    const candidate = own.filter((r) => r.procedure === 'candidate').map((r) => r.value);
+    if (comparative.length === 0 || candidate.length === 0) {
+      const missing = comparative.length === 0 ? 'comparative' : 'candidate';
+      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: no ${missing} result yet.` });
+      continue;
+    }
+    const entry: IncludedSample = { sampleId: sample.id, code: sample.code, comparative: average(comparative), candidate: average(candidate) };
+    if (comparative.length === 2 && candidate.length === 2) {
+      entry.replicates = { comparative: [comparative[0], comparative[1]], candidate: [candidate[0], candidate[1]] };
+    }
+    inputs.included.push(entry);
+  }
+  return inputs;
+}
+
+/**
+ * sha256 (hex) of the canonical JSON of the inputs: equal inputs give equal hashes.
+ *
+ * @example
+ * inputsHashOf(await studyInputs(lab.id, studyId)); // '3f1c…' (64 hex digits)
+ */
+export function inputsHashOf(inputs: StudyInputs): string {
+  return sha256(canonicalJson(inputs));
+}
+
+/**
+ * The engine's input for a study: λ given, or from the duplicates when the protocol says so and every analysed
+ * sample has two of each (otherwise λ = 1, the engine's default); one allowable limit per decision level.
+ * `bootstrap: false` leaves out the bootstrap CIs (the quick part of a run).
+ *
+ * @example
+ * analyzeComparison(engineInput(inputs, true));
+ */
+export function engineInput(inputs: StudyInputs, withBootstrap: boolean): ComparisonInput {
+  const { included, settings } = inputs;
+  const useDuplicates = settings.demingLambda.mode === 'duplicates' && included.length > 0 && included.every((s) => s.replicates);
+  return {
+    sampleIds: included.map((s) => s.code),
+    comparative: included.map((s) => s.comparative),
+    candidate: included.map((s) => s.candidate),
+    ...(useDuplicates
+      ? { replicates: { comparative: included.map((s) => s.replicates!.comparative), candidate: included.map((s) => s.replicates!.candidate) } }
+      : {}),
+    ...(settings.demingLambda.mode === 'given' ? { lambda: settings.demingLambda.value } : {}),
+    methods: settings.methods,
+    primary: settings.primary,
+    decisionLevels: settings.decisionLevels.map((l) => l.value),
+    allowable: settings.decisionLevels.map(({ allowableBias: { rule, absolute, percent } }) => ({ rule, absolute, percent })),
+    seed: settings.bootstrap.seed,
+    bootstrap: withBootstrap ? { resamples: settings.bootstrap.resamples, method: settings.bootstrap.method } : false,
+    plan: settings.plan,
+    excludedCount: inputs.excluded.length,
+    robust: { tuning: { [settings.robust.psi]: settings.robust.tuning }, start: settings.robust.start },
+  };
+}
+
+function analyse(inputs: StudyInputs, withBootstrap: boolean): ComparisonAnalysis {
+  if (inputs.included.length < 3) {
+    throw new Problem(409, 'Not enough data', `An analysis needs at least 3 complete pairs; this study has ${inputs.included.length}.`);
+  }
+  try {
+    return analyzeComparison(engineInput(inputs, withBootstrap));
+  } catch (error) {
+    if (error instanceof StatsInputError) throw new Problem(409, 'Cannot analyse these data', error.message);
+    throw error;
+  }
+}
+
+/** The bootstrap part of a run, computed by the queued job: the full analysis from the run's own inputs. */
+export function completeAnalysis(inputs: StudyInputs): ComparisonAnalysis {
+  return analyse(inputs, true);
+}
+
+async function latestRun(laboratoryId: string, studyId: string): Promise<AnalysisRunRow | undefined> {
+  const [row] = await getDb()
+    .select()
+    .from(analysisRuns)
+    .where(and(eq(analysisRuns.laboratoryId, laboratoryId), eq(analysisRuns.studyId, studyId)))
+    .orderBy(desc(analysisRuns.createdAt))
+    .limit(1);
+  return row;
+}
+
+/**
+ * Runs the analysis of a study and stores it, or returns the latest run unchanged while its inputs hash is that
+ * of the study's current inputs. A new run holds the quick part at once and queues the bootstrap CIs
+ * (job kind 'analysis-bootstrap'); older runs are marked stale. Audited as 'analysis.run'.
+ *
+ * @example
+ * const { run, reused } = await runAnalysis({ id: user.id }, lab.id, studyId);
+ */
+export async function runAnalysis(actor: { id: string }, laboratoryId: string, studyId: string): Promise<{ run: AnalysisRunRow; reused: boolean }> {
+  const inputs = await studyInputs(laboratoryId, studyId);
+  const inputsHash = inputsHashOf(inputs);
+  const latest = await latestRun(laboratoryId, inputs.studyId);
+  if (latest && latest.inputsHash === inputsHash) {
+    if (latest.stale) await getDb().update(analysisRuns).set({ stale: false }).where(eq(analysisRuns.id, latest.id));
+    return { run: { ...latest, stale: false }, reused: true };
+  }
+  const analysis = analyse(inputs, false);
+  const stored: StoredResults = { analysis, inputs, bootstrap: { status: 'pending', jobId: null, resamples: inputs.settings.bootstrap.resamples } };
+  const run = await getDb().transaction(async (tx) => {
+    await tx
+      .update(analysisRuns)
+      .set({ stale: true })
+      .where(and(eq(analysisRuns.laboratoryId, laboratoryId), eq(analysisRuns.studyId, inputs.studyId), ne(analysisRuns.inputsHash, inputsHash)));
+    const [row] = await tx
+      .insert(analysisRuns)
+      .values({ laboratoryId, studyId: inputs.studyId, inputsHash, engineVersion: ENGINE_VERSION, settings: inputs.settings, results: stored, createdBy: actor.id })
+      .returning();
+    await recordAudit(tx, {
+      laboratoryId,
+      actorUserId: actor.id,
+      action: 'analysis.run',
+      entityType: 'study',
+      entityId: inputs.studyId,
+      data: {
+        analysisRunId: row.id,
+        inputsHash,
+        engineVersion: ENGINE_VERSION,
+        included: inputs.included.length,
+        excluded: inputs.excluded.map((e) => e.code),
+        leftOut: inputs.leftOut.map((e) => e.code),
+        primary: inputs.settings.primary,
+      },
+    });
+    return row;
+  });
+  const job = await enqueueJob({ laboratoryId, studyId: inputs.studyId, kind: BOOTSTRAP_JOB_KIND, payload: { runId: run.id }, createdBy: actor.id });
+  const withJob: StoredResults = { ...stored, bootstrap: { ...stored.bootstrap, jobId: job.id } };
+  await setRunResults(run.id, withJob, true);
+  return { run: { ...run, results: withJob }, reused: false };
+}
+
+/**
+ * Replaces a run's stored results. `onlyWhilePending` keeps a finished bootstrap from being overwritten by the
+ * job id written just after the run was queued (the job may finish first).
+ */
+export async function setRunResults(runId: string, next: StoredResults, onlyWhilePending = false): Promise<void> {
+  const db = getDb();
+  await db.transaction(async (tx) => {
+    const [row] = await tx.select({ results: analysisRuns.results }).from(analysisRuns).where(eq(analysisRuns.id, runId)).for('update');
+    if (!row) return;
+    const current = row.results as StoredResults;
+    if (onlyWhilePending && current.bootstrap.status !== 'pending') {
+      await tx.update(analysisRuns).set({ results: { ...current, bootstrap: { ...current.bootstrap, jobId: next.bootstrap.jobId } } }).where(eq(analysisRuns.id, runId));
+      return;
+    }
+    await tx.update(analysisRuns).set({ results: next }).where(eq(analysisRuns.id, runId));
+  });
+}
+
+/** A run by id, for the bootstrap job. */
+export async function getRun(runId: string): Promise<AnalysisRunRow | undefined> {
+  const [row] = await getDb().select().from(analysisRuns).where(eq(analysisRuns.id, runId));
+  return row;
+}
+
+/**
+ * The latest run of a study and whether it is current (its inputs hash is that of the study's current data,
+ * exclusions, settings and engine version); a run that is no longer current is marked stale.
+ *
+ * @example
+ * const { run, current, bootstrapDone } = await getCurrentAnalysis(lab.id, studyId);
+ */
+export async function getCurrentAnalysis(laboratoryId: string, studyId: string): Promise<{ run: AnalysisRunRow | null; current: boolean; bootstrapDone: boolean }> {
+  const inputs = await studyInputs(laboratoryId, studyId);
+  const run = await latestRun(laboratoryId, inputs.studyId);
+  if (!run) return { run: null, current: false, bootstrapDone: false };
+  const current = run.inputsHash === inputsHashOf(inputs);
+  if (!current && !run.stale) {
+    await getDb().update(analysisRuns).set({ stale: true }).where(eq(analysisRuns.id, run.id));
+    run.stale = true;
+  }
+  return { run, current, bootstrapDone: (run.results as StoredResults).bootstrap.status === 'done' };
+}
+
+/**
+ * What the workspace shows: the latest run with its state, the bootstrap job's progress while it runs, and the
+ * study's samples left out or excluded now.
+ *
+ * @example
+ * const view = await analysisView(lab.id, studyId);
+ */
+export async function analysisView(laboratoryId: string, studyId: string) {
+  const { run, current, bootstrapDone } = await getCurrentAnalysis(laboratoryId, studyId);
+  const { study } = await getStudy(laboratoryId, studyId);
+  let job: Pick<JobRow, 'id' | 'status' | 'progress' | 'message' | 'error'> | null = null;
+  const jobId = run ? (run.results as StoredResults).bootstrap.jobId : null;
+  if (jobId) {
+    const row = await getJob(laboratoryId, jobId);
+    job = { id: row.id, status: row.status, progress: row.progress, message: row.message, error: row.error };
+  }
+  return {
+    study: { id: study.id, title: study.title, state: study.state },
+    run: run ? { id: run.id, inputsHash: run.inputsHash, engineVersion: run.engineVersion, createdAt: run.createdAt, stale: run.stale, results: run.results as StoredResults } : null,
+    current,
+    bootstrapDone,
+    job,
+  };
+}
+
+const LOCKED_STATES = new Set(['in_review', 'signed']);
+
+const reasonText = (reason: unknown) => (typeof reason === 'string' ? reason.trim() : '');
+
+async function lockStudyForExclusion(tx: Parameters<Parameters<ReturnType<typeof getDb>['transaction']>[0]>[0], laboratoryId: string, studyId: string, sampleId: string) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const [study] = await tx.select().from(studies).where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId))).for('update');
+  if (!study) throw notFound('study');
+  if (!isUuid(sampleId)) throw notFound('sample');
+  const [sample] = await tx
+    .select()
+    .from(samples)
+    .where(and(eq(samples.id, sampleId), eq(samples.studyId, studyId), eq(samples.laboratoryId, laboratoryId)));
+  if (!sample) throw notFound('sample');
+  if (LOCKED_STATES.has(study.state)) {
+    throw new Problem(409, 'Study locked', `Samples can be excluded or included only before sign-off; this study is ${study.state.replace('_', ' ')}.`);
+  }
+  return { study, sample };
+}
+
+function requireReason(reason: unknown, verb: string): string {
+  const text = reasonText(reason);
+  if (text.length === 0) throw invalid(`Give a reason to ${verb} this sample.`, [{ field: 'reason', message: `Say why this sample is ${verb}d; the reason goes in the audit trail.` }]);
+  if (text.length > 2000) throw invalid('The reason is too long.', [{ field: 'reason', message: 'Keep the reason under 2000 characters.' }]);
+  return text;
+}
+
+/**
+ * Excludes a sample from the analysis with a mandatory reason (audited 'sample.excluded'); 409 when it is
+ * already excluded or the study is in review or signed.
+ *
+ * @example
+ * await excludeSample({ id: user.id }, lab.id, studyId, sampleId, 'Haemolysed on inspection');
+ */
+export async function excludeSample(actor: { id: string }, laboratoryId: string, studyId: string, sampleId: string, reason: unknown) {
+  const text = requireReason(reason, 'exclude');
+  return getDb().transaction(async (tx) => {
+    const { sample } = await lockStudyForExclusion(tx, laboratoryId, studyId, sampleId);
+    const [standing] = await tx.select().from(exclusions).where(and(eq(exclusions.sampleId, sample.id), isNull(exclusions.revokedAt)));
+    if (standing) throw new Problem(409, 'Already excluded', `${sample.code} is already excluded (${standing.reason}).`);
+    const [row] = await tx.insert(exclusions).values({ laboratoryId, studyId, sampleId: sample.id, reason: text, excludedBy: actor.id }).returning();
+    await recordAudit(tx, { laboratoryId, actorUserId: actor.id, action: 'sample.excluded', entityType: 'sample', entityId: sample.id, data: { studyId, code: sample.code, reason: text, exclusionId: row.id } });
+    return row;
+  });
+}
+
+/**
+ * Includes an excluded sample again with a mandatory reason: the exclusion is revoked, not deleted
+ * (audited 'sample.included'); 409 when it is not excluded or the study is in review or signed.
+ *
+ * @example
+ * await includeSample({ id: user.id }, lab.id, studyId, sampleId, 'Re-measured; the first result was a mix-up');
+ */
+export async function includeSample(actor: { id: string }, laboratoryId: string, studyId: string, sampleId: string, reason: unknown) {
+  const text = requireReason(reason, 'include');
+  return getDb().transaction(async (tx) => {
+    const { sample } = await lockStudyForExclusion(tx, laboratoryId, studyId, sampleId);
+    const [standing] = await tx.select().from(exclusions).where(and(eq(exclusions.sampleId, sample.id), isNull(exclusions.revokedAt)));
+    if (!standing) throw new Problem(409, 'Not excluded', `${sample.code} is not excluded.`);
+    const [row] = await tx
+      .update(exclusions)
+      .set({ revokedAt: new Date(), revokedBy: actor.id, revokeReason: text })
+      .where(eq(exclusions.id, standing.id))
+      .returning();
+    await recordAudit(tx, { laboratoryId, actorUserId: actor.id, action: 'sample.included', entityType: 'sample', entityId: sample.id, data: { studyId, code: sample.code, reason: text, exclusionId: row.id } });
+    return row;
+  });
+}
+
+/**
+ * One sample for the detail panel: all its results, specimen flags, exclusions (standing and revoked) and its
+ * audit history, oldest first.
+ *
+ * @example
+ * const detail = await sampleDetail(lab.id, studyId, sampleId);
+ */
+export async function sampleDetail(laboratoryId: string, studyId: string, sampleId: string) {
+  if (!isUuid(studyId)) throw notFound('study');
+  if (!isUuid(sampleId)) throw notFound('sample');
+  const db = getDb();
+  const [sample] = await db
+    .select()
+    .from(samples)
+    .where(and(eq(samples.id, sampleId), eq(samples.studyId, studyId), eq(samples.laboratoryId, laboratoryId)));
+  if (!sample) throw notFound('sample');
+  const values = await db
+    .select({ procedure: results.procedure, replicate: results.replicate, value: results.value, censored: results.censored, unit: results.unit, runDate: results.runDate })
+    .from(results)
+    .where(eq(results.sampleId, sample.id))
+    .orderBy(asc(results.procedure), asc(results.replicate));
+  const exclusionRows = await db.select().from(exclusions).where(eq(exclusions.sampleId, sample.id)).orderBy(asc(exclusions.excludedAt));
+  const history = await db
+    .select({ id: auditEvents.id, action: auditEvents.action, occurredAt: auditEvents.occurredAt, data: auditEvents.data, actor: user.name })
+    .from(auditEvents)
+    .leftJoin(user, eq(user.id, auditEvents.actorUserId))
+    .where(and(eq(auditEvents.laboratoryId, laboratoryId), eq(auditEvents.entityId, sample.id)))
+    .orderBy(asc(auditEvents.id));
+  return {
+    sample: { id: sample.id, code: sample.code, flags: sample.flags, flagNote: sample.flagNote },
+    values,
+    excluded: exclusionRows.some((e) => e.revokedAt === null),
+    exclusions: exclusionRows.map((e) => ({ reason: e.reason, excludedAt: e.excludedAt, revokedAt: e.revokedAt, revokeReason: e.revokeReason })),
+    history,
+  };
+}

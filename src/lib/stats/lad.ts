@@ -161,7 +161,7 @@ const LAD_MIN_SAMPLES = 8;
  * Sparsity 1/f(0) of the errors at their median, estimated from the residuals: an Epanechnikov kernel density at 0,
  * f̂(0) = (1/(n·h)) Σ K(eᵢ/h) with K(u) = ¾(1 − u²) on |u| ≤ 1, and bandwidth
  * h = min(SD(y), IQR(e)/1.34)·(Φ⁻¹(½ + h₀) − Φ⁻¹(½ − h₀)), h₀ = n^(−1/3)·z₀.₉₇₅^(2/3)·(1.5·φ(0)²)^(1/3)
- * (Hall & Sheather, JRSS B 1988; the form used by statsmodels QuantReg and Stata 12).
+ * (bandwidth: Hall & Sheather, JRSS B 1988; kernel estimate of the sparsity: Koenker, Quantile Regression 2005, §3.4).
  */
 function sparsityAtMedian(y: readonly number[], residuals: Float64Array): number {
   const n = residuals.length;
@@ -191,8 +191,8 @@ function sparsityAtMedian(y: readonly number[], residuals: Float64Array): number
 /**
  * Least-absolute-deviations (L1) line, computed exactly (see above). Its covariance is the asymptotic one of
  * Koenker & Bassett (Econometrica 1978) at the median, Cov(a, b) = ¼·(1/f(0))²·(X'X)⁻¹, with the sparsity
- * 1/f(0) estimated as in sparsityAtMedian, and t intervals with n − 2 df (as statsmodels QuantReg, vcov = "iid";
- * at the median its "robust" form is the same). Needs at least 8 samples for the bandwidth to exist.
+ * 1/f(0) estimated as in sparsityAtMedian, and t intervals with n − 2 df (the convention of statsmodels QuantReg,
+ * vcov = "iid", against which it is checked). Needs at least 8 samples for the bandwidth to exist.
  * `scale` is the MAD of the residuals about zero. `seed` is accepted for a uniform call with the other fits;
  * nothing here is random.
  *

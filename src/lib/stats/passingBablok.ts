@@ -328,6 +328,7 @@ class PairSink {
   total = 0;
   listed = new Float64Array(1024);
   listedLength = 0;
+  overflow = false;
   readonly bins: Float64Array;
   constructor(
     private readonly points: Points,
@@ -336,6 +337,8 @@ class PairSink {
     private readonly from = -Infinity,
     private readonly to = Infinity,
     private readonly edges: Float64Array = new Float64Array(0),
+    /** 'list' stops storing (and sets `overflow`) beyond this many slopes. */
+    private readonly cap = Infinity,
   ) {
     this.bins = new Float64Array(mode === 'bin' ? 2 * edges.length + 1 : 0);
   }
@@ -386,6 +389,10 @@ class PairSink {
   }
 
   private push(s: number): void {
+    if (this.listedLength >= this.cap) {
+      this.overflow = true;
+      return;
+    }
     if (this.listedLength === this.listed.length) {
       const grown = new Float64Array(2 * this.listed.length);
       grown.set(this.listed);
@@ -488,7 +495,7 @@ class SelectedSlopes implements SlopeSet {
     let stalled = false;
     for (let round = 0; round < 60; round++) {
       const between = countHi - countLo;
-      if (between <= this.listBudget && this.listAndPick(lo, hi, kLow, kHigh, out)) return;
+      if (between <= this.listBudget && this.listAndPick(lo, hi, countLo, kLow, kHigh, out)) return;
       const sample =
         lo === -Infinity && hi === Infinity && sampleSize === this.sampleSize
           ? this.sampleAll()
@@ -505,10 +512,10 @@ class SelectedSlopes implements SlopeSet {
           return;
         }
         if (band.outcome === 'below') {
-          hi = edges[0];
+          hi = band.bound;
           countHi = band.count;
         } else {
-          lo = edges[edges.length - 1];
+          lo = band.bound;
           countLo = band.count;
         }
         stalled = false;
@@ -539,71 +546,84 @@ class SelectedSlopes implements SlopeSet {
   }
 
   /**
-   * Settles ranks whose slopes lie in [edges[0], edges[last]] (sorted distinct sample values) by
-   * comparing slope values, not keys: the band widened by the rounding margin is counted per value
-   * bin in one pass; a rank on an edge value is that value, a rank between two edges is found by
-   * listing that gap. 'below': the ranks are below the first edge, `count` slopes are; 'above': they
-   * are above the last edge, `count` slopes are not; 'split': they need separate bands.
+   * Settles ranks by comparing slope values, not keys, over the band [first edge − margin,
+   * last edge + margin] (edges: sorted distinct sample values): one pass counts the slopes per value
+   * bin; a rank on an edge value is that value, a rank between two edges or outside them (but inside
+   * the band) is found by listing that bin. A rank picked within half a margin of the band's end
+   * might be misplaced by rounding, so its value becomes an extra edge and the band is redone.
+   * 'below'/'above': the ranks lie outside the band, with `bound` the band's end and `count` the
+   * slopes below it; 'split': the ranks need separate bands.
    */
   private pickInBand(
     edges: Float64Array,
     wanted: number[],
     out: Map<number, number>,
-  ): { outcome: 'done' | 'below' | 'above' | 'split'; count: number } {
+    depth = 0,
+  ): { outcome: 'done' | 'below' | 'above' | 'split'; bound: number; count: number } {
     const first = edges[0];
     const last = edges[edges.length - 1];
-    const bandLo = first - this.margin(first);
-    const bandHi = last + this.margin(last);
+    const marginLo = this.margin(first);
+    const marginHi = this.margin(last);
+    const bandLo = first - marginLo;
+    const bandHi = last + marginHi;
     const countLo = this.countBelow(bandLo);
     const binned = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'bin', 0, -Infinity, Infinity, edges));
-    // Cumulative counts at the start of each bin; bin 0 and the last bin are outside [first, last].
     const bins = binned.bins;
-    const ranks: Array<{ k: number; bin: number; before: number }> = [];
+    const countHi = countLo + binned.total;
+    if (wanted.every((k) => k <= countLo)) return { outcome: 'below', bound: bandLo, count: countLo };
+    if (wanted.every((k) => k > countHi)) return { outcome: 'above', bound: bandHi, count: countHi };
+    if (wanted.some((k) => k <= countLo || k > countHi)) return { outcome: 'split', bound: 0, count: 0 };
+    const picked = new Map<number, number>();
     for (const k of wanted) {
       let before = countLo;
       let bin = 0;
-      while (bin < bins.length && before + bins[bin] < k) before += bins[bin++];
-      ranks.push({ k, bin, before });
-    }
-    if (ranks.every((r) => r.bin === 0)) return { outcome: 'below', count: countLo + bins[0] };
-    if (ranks.every((r) => r.bin >= bins.length - 1)) return { outcome: 'above', count: countLo + binned.total - bins[bins.length - 1] };
-    if (ranks.some((r) => r.bin === 0 || r.bin >= bins.length - 1)) return { outcome: 'split', count: 0 };
-    for (const { k, bin, before } of ranks) {
+      while (before + bins[bin] < k) before += bins[bin++];
       if (bin % 2 === 1) {
-        out.set(k, edges[(bin - 1) / 2]);
+        picked.set(k, edges[(bin - 1) / 2]);
         continue;
       }
-      const gap = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'list', 0, edges[bin / 2 - 1], edges[bin / 2]));
-      const sorted = gap.listed.subarray(0, gap.listedLength).sort();
-      out.set(k, sorted[k - before - 1]);
+      const from = bin === 0 ? -Infinity : edges[bin / 2 - 1];
+      const to = bin === bins.length - 1 ? Infinity : edges[bin / 2];
+      const gap = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'list', 0, from, to));
+      const value = gap.listed.subarray(0, gap.listedLength).sort()[k - before - 1];
+      if (value < bandLo + marginLo / 2 || value > bandHi - marginHi / 2) {
+        if (depth >= 3) throw new Error(`slope selection could not separate rank ${k} from rounding`);
+        const wider = Float64Array.from(new Set([value, ...edges])).sort();
+        return this.pickInBand(wider, wanted, out, depth + 1);
+      }
+      picked.set(k, value);
     }
-    return { outcome: 'done', count: 0 };
+    for (const [k, value] of picked) out.set(k, value);
+    return { outcome: 'done', bound: 0, count: 0 };
   }
 
   /**
-   * Lists the slopes between the bounds widened by the rounding margin, sorts them and picks the
-   * ranks; refuses (returns false) when too many slopes lie within the widened bounds, or unless each
-   * picked slope lies clear of both widened bounds, which guarantees that no slope was put on the
-   * wrong side of a bound by rounding.
+   * Lists the slopes between lo and hi (countLo of them below lo), sorts them and picks the ranks.
+   * Each picked slope must lie clear of both bounds by half the rounding margin: then no slope can
+   * have been put on the wrong side of a bound by rounding. Otherwise the bounds are widened by the
+   * margin and tried once more. Refuses (false) when that fails too or too many slopes lie between.
    */
-  private listAndPick(lo: number, hi: number, kLow: number, kHigh: number, out: Map<number, number>): boolean {
-    const marginLo = Number.isFinite(lo) ? this.margin(lo) : 0;
-    const marginHi = Number.isFinite(hi) ? this.margin(hi) : 0;
-    const wideLo = lo - marginLo;
-    const wideHi = hi + marginHi;
-    const countBelow = this.countBelow(wideLo);
-    // A bound on a tie cluster can put far more pairs inside the margins than between the bounds.
-    if (this.countBelow(wideHi) - countBelow > 2 * this.listBudget) return false;
-    const sink = this.pairsBetween(wideLo, wideHi, new PairSink(this.points, 'list'));
-    const sorted = sink.listed.subarray(0, sink.listedLength).sort();
-    for (let k = kLow; k <= kHigh; k++) {
-      const index = k - countBelow - 1;
-      if (index < 0 || index >= sorted.length) return false;
-      const value = sorted[index];
-      if (value < wideLo + marginLo / 2 || value > wideHi - marginHi / 2) return false;
+  private listAndPick(lo: number, hi: number, countLo: number, kLow: number, kHigh: number, out: Map<number, number>): boolean {
+    for (const widen of [false, true]) {
+      const marginLo = Number.isFinite(lo) ? this.margin(lo) : 0;
+      const marginHi = Number.isFinite(hi) ? this.margin(hi) : 0;
+      const from = widen ? lo - marginLo : lo;
+      const to = widen ? hi + marginHi : hi;
+      const below = widen ? this.countBelow(from) : countLo;
+      // A bound on a tie cluster can put far more pairs inside the margins than between the bounds.
+      const sink = this.pairsBetween(from, to, new PairSink(this.points, 'list', 0, -Infinity, Infinity, undefined, 4 * this.listBudget));
+      if (sink.overflow) return false;
+      const sorted = sink.listed.subarray(0, sink.listedLength).sort();
+      const fits = rangeOf(kLow, kHigh).every((k) => {
+        const index = k - below - 1;
+        return index >= 0 && index < sorted.length && sorted[index] >= from + marginLo / 2 && sorted[index] <= to - marginHi / 2;
+      });
+      if (fits) {
+        for (let k = kLow; k <= kHigh; k++) out.set(k, sorted[k - below - 1]);
+        return true;
+      }
     }
-    for (let k = kLow; k <= kHigh; k++) out.set(k, sorted[k - countBelow - 1]);
-    return true;
+    return false;
   }
 
   /** Exact numbers of slopes below v and equal to v: below v − margin by counting, the band v ± margin one by one. */

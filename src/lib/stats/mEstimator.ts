@@ -113,7 +113,7 @@ function startingPoint(
     return { beta: new Float64Array(choice), kind: 'given' };
   }
   if (choice === 'ols') return { beta: design.solveWeighted(y, null), kind: 'ols' };
-  if (choice === 's-estimate') return { beta: Float64Array.from(sEstimateOnDesign(design, y, { seed }).coefficients), kind: 's-estimate' };
+  if (choice === 's-estimate') return { beta: new Float64Array(sEstimateOnDesign(design, y, { seed }).coefficients), kind: 's-estimate' };
   throw new StatsInputError(`start must be 'ols', 's-estimate' or an array of coefficients (got ${String(choice)})`, {
     field: 'start',
   });
@@ -167,7 +167,9 @@ export function mEstimateOnDesign(
       break;
     }
   }
-  for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] / scale);
+  // report the weights of the final fit's own residuals
+  const inverseScale = 1 / scale;
+  for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] * inverseScale);
 
   const covariance = sandwichCovariance(design, residuals, scale, norm);
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));

@@ -176,6 +176,36 @@ describe('fitPassingBablok against the brute-force definition', () => {
     });
   }
 
+  // Decimal data with a negative slope and duplicated x: a bound can land on a tie cluster.
+  for (const seed of [5, 11]) {
+    it(`decimal data with a negative slope and duplicated x (n = 2000, seed ${seed}): selection equals the brute force`, () => {
+      const rng = seededRandom(seed);
+      const x: number[] = [];
+      const y: number[] = [];
+      for (let i = 0; i < 2000; i++) {
+        if (i > 0 && rng.next() < 0.3) {
+          const j = rng.int(i);
+          x.push(x[j]);
+          y.push(rng.next() < 0.5 ? y[j] : y[j] + 0.1);
+          continue;
+        }
+        const truth = 1 + 60 * rng.next();
+        x.push(Number((Math.round((truth + 0.1 * normal(rng)) / 0.1) * 0.1).toFixed(2)));
+        y.push(Number((Math.round((0.3 - 0.2 * truth + 0.1 * normal(rng)) / 0.1) * 0.1).toFixed(2)));
+      }
+      const expected = bruteForce(x, y);
+      const fit = fitPassingBablok(x, y, { algorithm: 'selection' });
+      expect([fit.slope, fit.intercept, ...fit.slopeCI, ...fit.interceptCI, fit.shift, fit.slopeCount]).toEqual([
+        expected.slope,
+        expected.intercept,
+        ...expected.slopeCI,
+        ...expected.interceptCI,
+        expected.shift,
+        expected.slopeCount,
+      ]);
+    });
+  }
+
   it('larger continuous data (n = 1200): selection equals the brute force', () => {
     const { x, y } = line(1200, -2, 0.98, 2, 0)(seededRandom(77));
     const expected = bruteForce(x, y);

@@ -71,7 +71,7 @@ const DIRECT_LIMIT = 200;
  *
  * @example
  * const fit = fitPassingBablok([1, 2, 3, 4, 5, 6], [3.1, 4.9, 7.2, 9.0, 10.8, 13.1]);
- * fit.slope; // ≈ 1.98
+ * fit.slope; // ≈ 1.97
  */
 export function fitPassingBablok(
   x: readonly number[],

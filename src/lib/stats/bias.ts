@@ -153,9 +153,11 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     }
     let a = fit.intercept + fit.slope * centre;
     let b = fit.slope;
+    let scale = fixedScale ?? fit.scale ?? 0;
     for (let iteration = 0; iteration < REFIT_MAX_ITERATIONS; iteration++) {
       for (let i = 0; i < size; i++) r[i] = ys[i] - a - b * xs[i];
-      const scale = fixedScale ?? madScale(r, s);
+      // the previous scale only speeds up the median (madScale's hint); the result is the same
+      scale = fixedScale ?? madScale(r, s, scale);
       let sumW = 0;
       let sumWX = 0;
       let sumWY = 0;

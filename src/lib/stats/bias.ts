@@ -1,4 +1,5 @@
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
+import { normalQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { madScale, selectKth } from './linear';
@@ -233,10 +234,21 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
 
   const counts = new Int32Array(n);
   const offsets = new Float64Array(n);
-  /** Mean of the slopes at 1-based weighted ranks `low` ≤ `high`, scanning on from the slopes below −1 (weight `shift`). */
+  const band = slopeBandStart(x, y, sortedSlopes, sortedFirst, sortedSecond, belowMinusOneEnd, excludedFirst, excludedSecond);
+  /**
+   * Mean of the slopes at 1-based weighted ranks `low` ≤ `high`: scanning on from the band start when the weight
+   * below it is known to be short of `low`, otherwise from the slopes below −1 (weight `shift`).
+   */
   const meanAtRanks = (low: number, high: number, shift: number) => {
     let cumulative = shift;
     let k = belowMinusOneEnd;
+    if (band) {
+      const below = band.weightBelow(counts);
+      if (below < low) {
+        cumulative = below;
+        k = band.position;
+      }
+    }
     while (k < kept) {
       cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
       if (cumulative >= low) break;
@@ -270,6 +282,100 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     const o = size === n ? offsets : offsets.subarray(0, size);
     for (let i = 0; i < size; i++) o[i] = y[indices[i]] - slope * x[indices[i]];
     return [medianInPlace(o), slope];
+  };
+}
+
+/**
+ * A start for the weighted slope scan well below where resample medians fall: a sorted position p0 just below the
+ * full data's lower 99 % Passing–Bablok bound (rank round((N − C)/2) + K with z = 2.576), at the widest gap
+ * between neighbouring slopes there, and t halfway across that gap, so that the kept pairs before p0 are exactly
+ * those with slope < t and no pair's slope lies close to t. For a pair in x order
+ * (ties by key), slope < t ⇔ the keys y − t·x are inverted, so the resample weight Σ c_i·c_j of the pairs before p0
+ * is a weighted inversion count, O(n log n) with a Fenwick tree, minus the dropped −1 slopes when −1 < t. Floating
+ * point could make the computed slopes and keys disagree on some pair, so every pair is checked once here; on any
+ * disagreement (or no gain) there is no band and the scan starts from the beginning, so results never change.
+ */
+function slopeBandStart(
+  x: readonly number[],
+  y: readonly number[],
+  sortedSlopes: Float64Array,
+  sortedFirst: Uint16Array,
+  sortedSecond: Uint16Array,
+  belowMinusOneEnd: number,
+  excludedFirst: readonly number[],
+  excludedSecond: readonly number[],
+): { position: number; weightBelow: (counts: Int32Array) => number } | null {
+  const n = x.length;
+  const kept = sortedSlopes.length;
+  const spread = normalQuantile(0.995) * Math.sqrt((n * (n - 1) * (2 * n + 5)) / 18);
+  const target = Math.round((kept - spread) / 2) + belowMinusOneEnd - 1;
+  if (target <= belowMinusOneEnd + n || target >= kept) return null;
+  // the widest gap between neighbouring slopes just below the target, so that no pair's slope is close to t
+  let position = target;
+  for (let k = target; k > Math.max(belowMinusOneEnd + 1, target - n); k--) {
+    if (sortedSlopes[k] - sortedSlopes[k - 1] > sortedSlopes[position] - sortedSlopes[position - 1]) position = k;
+  }
+  const t = (sortedSlopes[position - 1] + sortedSlopes[position]) / 2;
+  if (!(Number.isFinite(t) && sortedSlopes[position - 1] < t && t < sortedSlopes[position])) return null;
+
+  // x order with ties by key, and dense key ranks (equal keys share a rank, so they never count as inverted)
+  const keys = Float64Array.from(x, (xi, i) => y[i] - t * xi);
+  const order = Array.from({ length: n }, (_, i) => i).sort((p, q) => x[p] - x[q] || keys[p] - keys[q]);
+  const byKey = Array.from({ length: n }, (_, i) => i).sort((p, q) => keys[p] - keys[q]);
+  const rank = new Int32Array(n);
+  let distinct = 0;
+  byKey.forEach((point, k) => {
+    if (k > 0 && keys[point] !== keys[byKey[k - 1]]) distinct++;
+    rank[point] = distinct;
+  });
+  const ranks = distinct + 1;
+
+  // the pairs the key inversions must reproduce: kept pairs before p0, and dropped −1 slopes below t
+  const below = new Uint8Array(n * n);
+  for (let k = 0; k < position; k++) below[sortedFirst[k] * n + sortedSecond[k]] = 1;
+  const minusOneBelow: number[] = [];
+  if (-1 < t) {
+    for (let e = 0; e < excludedFirst.length; e++) {
+      const i = excludedFirst[e];
+      const j = excludedSecond[e];
+      if (!(x[i] === x[j] && y[i] === y[j])) {
+        below[i * n + j] = 1;
+        minusOneBelow.push(i, j);
+      }
+    }
+  }
+  for (let p = 0; p < n; p++) {
+    for (let q = p + 1; q < n; q++) {
+      const i = order[p];
+      const j = order[q];
+      const inverted = rank[i] > rank[j];
+      const listed = below[Math.min(i, j) * n + Math.max(i, j)] === 1;
+      if (inverted !== listed) return null;
+    }
+  }
+
+  const xOrder = Int32Array.from(order);
+  const tree = new Float64Array(ranks + 1);
+  return {
+    position,
+    weightBelow(counts) {
+      tree.fill(0);
+      let seen = 0;
+      let weight = 0;
+      for (let p = 0; p < n; p++) {
+        const point = xOrder[p];
+        const c = counts[point];
+        if (c === 0) continue;
+        // previous points with a larger key: all seen so far minus those with rank ≤ this rank
+        let atMost = 0;
+        for (let r = rank[point] + 1; r > 0; r -= r & -r) atMost += tree[r];
+        weight += c * (seen - atMost);
+        for (let r = rank[point] + 1; r <= ranks; r += r & -r) tree[r] += c;
+        seen += c;
+      }
+      for (let e = 0; e < minusOneBelow.length; e += 2) weight -= counts[minusOneBelow[e]] * counts[minusOneBelow[e + 1]];
+      return weight;
+    },
   };
 }
 

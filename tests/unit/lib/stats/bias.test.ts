@@ -148,7 +148,8 @@ describe('bootstrapBiasIntervals', () => {
   }
 
   it('Passing–Bablok: the weighted refit from the sorted full-data slopes equals the 1983 definition on each resample', () => {
-    // the PEF data as measured, and rounded to 25 l/min so that resamples hold identical points and vertical pairs
+    // the PEF data as measured, and rounded to 25 l/min so that resamples hold identical points and vertical pairs;
+    // on both, every resample takes the banded scan (its start from a weighted inversion count)
     const rounded = (v: number[]) => v.map((z) => 25 * Math.round(z / 25));
     for (const [xs, ys] of [[x, y], [rounded(x), rounded(y)]]) {
       const fit = fitPassingBablok(xs, ys);

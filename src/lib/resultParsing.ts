@@ -374,3 +374,59 @@ export function checkRows(inputs: readonly SampleRowText[], rules: ResultRules):
   });
   return { rows, errors, warnings };
 }
+
+/**
+ * Delimiters a CSV may use, in the order they are tried when guessing.
+ *
+ * @example
+ * Papa.parse(text, { delimiter: '', delimitersToGuess: [...CSV_DELIMITERS] });
+ */
+export const CSV_DELIMITERS = [',', ';', '\t', '|'] as const;
+
+/**
+ * Decodes a CSV file's bytes as UTF-8 (a UTF-8 byte-order mark is dropped). UTF-16 files and bytes that are not
+ * UTF-8 (Latin-1, Windows-1252) are refused with the line they are on and how to save the file: guessing an
+ * 8-bit code page could silently change a character of a sample code or a note.
+ *
+ * @example
+ * decodeCsvBytes(new TextEncoder().encode('Sample,X\n')); // { ok: true, text: 'Sample,X\n' }
+ * decodeCsvBytes(Uint8Array.from([0x53, 0xe9, 0x0a])); // { ok: false, problem: { line: 1, field: 'file', message: 'Byte 2 (0xE9) is not UTF-8; …' } }
+ */
+export function decodeCsvBytes(bytes: Uint8Array): { ok: true; text: string } | { ok: false; problem: RowMessage } {
+  const refuse = (line: number, message: string) => ({ ok: false as const, problem: { line, field: 'file', message } });
+  if ((bytes[0] === 0xff && bytes[1] === 0xfe) || (bytes[0] === 0xfe && bytes[1] === 0xff)) {
+    return refuse(1, 'The file is encoded as UTF-16. Save it as "CSV UTF-8" and import it again.');
+  }
+  const start = bytes[0] === 0xef && bytes[1] === 0xbb && bytes[2] === 0xbf ? 3 : 0;
+  const body = bytes.subarray(start);
+  const zero = body.indexOf(0);
+  if (zero >= 0) return refuse(lineAt(body, zero), 'The file contains zero bytes, as a UTF-16 file does. Save it as "CSV UTF-8" and import it again.');
+  try {
+    return { ok: true, text: new TextDecoder('utf-8', { fatal: true }).decode(body) };
+  } catch {
+    const offset = firstInvalidUtf8(body);
+    return refuse(
+      lineAt(body, offset),
+      `Byte ${offset + start + 1} (0x${body[offset].toString(16).toUpperCase()}) is not UTF-8; the file looks like Latin-1 or Windows-1252. Save it as "CSV UTF-8" and import it again.`,
+    );
+  }
+}
+
+function lineAt(bytes: Uint8Array, offset: number): number {
+  let line = 1;
+  for (let i = 0; i < offset; i++) if (bytes[i] === 0x0a) line++;
+  return line;
+}
+
+/** Offset of the first byte that does not start or continue a valid UTF-8 sequence. */
+function firstInvalidUtf8(bytes: Uint8Array): number {
+  let i = 0;
+  while (i < bytes.length) {
+    const b = bytes[i];
+    const length = b < 0x80 ? 1 : b >= 0xc2 && b <= 0xdf ? 2 : b >= 0xe0 && b <= 0xef ? 3 : b >= 0xf0 && b <= 0xf4 ? 4 : 0;
+    if (length === 0) return i;
+    for (let k = 1; k < length; k++) if (i + k >= bytes.length || (bytes[i + k] & 0xc0) !== 0x80) return i;
+    i += length;
+  }
+  return 0;
+}

@@ -12,53 +12,16 @@ import { attachments } from '../db/schema';
 import { Problem } from './problem';
 import { lockCollectingStudy } from './studies';
 import { logImport, refusal, storeRows, type Writer } from './results';
-import { checkRows, detectDecimalComma, missingColumns, tableToRows, type ColumnMapping, type RowMessage } from '../lib/resultParsing';
+import { checkRows, CSV_DELIMITERS, decodeCsvBytes, detectDecimalComma, missingColumns, tableToRows, type ColumnMapping, type RowMessage } from '../lib/resultParsing';
 import { IMPORT_LIMITS, type ImportSettings } from '../lib/resultSchemas';
 
 const WHAT = 'The file was not imported';
 
 /** The text of a CSV file, or a 422 saying which encoding it seems to be in and how to save it. */
-export function decodeCsv(bytes: Uint8Array): string {
-  if ((bytes[0] === 0xff && bytes[1] === 0xfe) || (bytes[0] === 0xfe && bytes[1] === 0xff)) {
-    throw refusal(WHAT, [{ line: 1, field: 'file', message: 'The file is encoded as UTF-16. Save it as "CSV UTF-8" and import it again.' }]);
-  }
-  const start = bytes[0] === 0xef && bytes[1] === 0xbb && bytes[2] === 0xbf ? 3 : 0;
-  const body = bytes.subarray(start);
-  const zero = body.indexOf(0);
-  if (zero >= 0) {
-    throw refusal(WHAT, [{ line: lineAt(body, zero), field: 'file', message: 'The file contains zero bytes, as a UTF-16 file does. Save it as "CSV UTF-8" and import it again.' }]);
-  }
-  try {
-    return new TextDecoder('utf-8', { fatal: true }).decode(body);
-  } catch {
-    const offset = firstInvalidUtf8(body);
-    throw refusal(WHAT, [
-      {
-        line: lineAt(body, offset),
-        field: 'file',
-        message: `Byte ${offset + start + 1} (0x${body[offset].toString(16).toUpperCase()}) is not UTF-8; the file looks like Latin-1 or Windows-1252. Save it as "CSV UTF-8" and import it again.`,
-      },
-    ]);
-  }
-}
-
-function lineAt(bytes: Uint8Array, offset: number): number {
-  let line = 1;
-  for (let i = 0; i < offset; i++) if (bytes[i] === 0x0a) line++;
-  return line;
-}
-
-/** Offset of the first byte that does not start or continue a valid UTF-8 sequence. */
-function firstInvalidUtf8(bytes: Uint8Array): number {
-  let i = 0;
-  while (i < bytes.length) {
-    const b = bytes[i];
-    const length = b < 0x80 ? 1 : b >= 0xc2 && b <= 0xdf ? 2 : b >= 0xe0 && b <= 0xef ? 3 : b >= 0xf0 && b <= 0xf4 ? 4 : 0;
-    if (length === 0) return i;
-    for (let k = 1; k < length; k++) if (i + k >= bytes.length || (bytes[i + k] & 0xc0) !== 0x80) return i;
-    i += length;
-  }
-  return 0;
+function decodeCsv(bytes: Uint8Array): string {
+  const decoded = decodeCsvBytes(bytes);
+  if (!decoded.ok) throw refusal(WHAT, [decoded.problem]);
+  return decoded.text;
 }
 
 /**
@@ -69,7 +32,7 @@ function firstInvalidUtf8(bytes: Uint8Array): number {
  * const { headers, data, delimiter } = parseCsvText('Sample;X;Y\nS-1;10,5;11\n'); // delimiter ';'
  */
 export function parseCsvText(text: string) {
-  const parsed = Papa.parse<string[]>(text, { delimiter: '', delimitersToGuess: [',', ';', '\t', '|'], skipEmptyLines: false });
+  const parsed = Papa.parse<string[]>(text, { delimiter: '', delimitersToGuess: [...CSV_DELIMITERS], skipEmptyLines: false });
   const quoteErrors = parsed.errors.filter((e) => e.type === 'Quotes');
   if (quoteErrors.length > 0) {
     throw refusal(WHAT, quoteErrors.map((e) => ({ line: (e.row ?? 0) + 1, field: 'file', message: `${e.message}; check the quotation marks on this line.` })));

@@ -5,6 +5,7 @@
 import { RUN_WORKERS } from 'astro:env/server';
 import { startWorkers } from './jobs';
 import './analysisJobs';
+import './reportJobs';
 
 let ensured = false;
 

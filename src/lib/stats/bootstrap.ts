@@ -43,7 +43,8 @@ export type IndexedStatistic = (indices: Int32Array) => number[];
  *
  * - Resample b draws n indices uniformly with replacement: index = floor(u·n), u = uint32/2³² from
  *   `seededRandom(seed)`, drawn resample by resample, position by position.
- * - The statistic receives one Int32Array that is reused for every resample: read it, never keep it.
+ * - The statistic is called on the full data, then on each resample in turn, then (BCa) on each leave-one-out
+ *   subset; it receives one Int32Array that is reused for every resample: read it, never keep it.
  * - A resample on which the statistic throws StatsInputError or returns a non-finite value is skipped
  *   and counted in `failedResamples`; if fewer than half succeed a StatsInputError is thrown.
  * - Quantiles of the replicates: linear interpolation between order statistics (Hyndman & Fan,

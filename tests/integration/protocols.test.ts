@@ -1,4 +1,4 @@
-import { and, eq, sql } from 'drizzle-orm';
+import { and, eq } from 'drizzle-orm';
 import { afterAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/server/db';
 import { auditEvents, protocolVersions, ROLES } from '../../src/db/schema';
@@ -68,10 +68,14 @@ describe('protocol lifecycle', () => {
     expect((await scientist.post(`${base}/approve`, { version: approvedBody.version })).status).toBe(409);
 
     // Nor through SQL: the database trigger refuses a change of settings or status.
-    await expect(db.execute(sql`update protocol_versions set settings = '{"title":"tampered"}'::jsonb where id = ${draft.id}`)).rejects.toThrow(/approved and cannot change/);
-    await expect(db.execute(sql`update protocol_versions set status = 'draft', approved_by = null, approved_at = null where id = ${draft.id}`)).rejects.toThrow(
-      /approved and cannot change/,
-    );
+    const rawUpdate = (statement: string) => db.$client.query(statement, [draft.id]);
+    await expect(rawUpdate(`update protocol_versions set settings = '{"title":"tampered"}'::jsonb where id = $1`)).rejects.toMatchObject({
+      code: '23514',
+      message: expect.stringMatching(/approved and cannot change/),
+    });
+    await expect(rawUpdate(`update protocol_versions set status = 'draft', approved_by = null, approved_at = null where id = $1`)).rejects.toMatchObject({
+      message: expect.stringMatching(/approved and cannot change/),
+    });
     const [stored] = await db.select().from(protocolVersions).where(eq(protocolVersions.id, draft.id));
     expect((stored.settings as ProtocolSettings).title).toBe(draft.settings.title);
     expect(stored.status).toBe('approved');
@@ -84,6 +88,9 @@ describe('protocol lifecycle', () => {
     const again = await scientist.post(`/api/labs/${lab.slug}/protocols/${protocolId}/versions`);
     expect(again.status).toBe(200);
     expect(((await again.json()) as { version: VersionBody }).version.id).toBe(nextVersion.id);
+
+    // The trigger leaves drafts alone.
+    await expect(db.$client.query(`update protocol_versions set settings = jsonb_set(settings, '{title}', '"edited in SQL"') where id = $1`, [nextVersion.id])).resolves.toMatchObject({ rowCount: 1 });
 
     const nextBase = `/api/labs/${lab.slug}/protocols/${protocolId}/versions/${nextVersion.id}`;
     expect((await scientist.put(nextBase, { settings: { ...nextVersion.settings, title: 'Glucose v2' }, version: nextVersion.version })).status).toBe(200);

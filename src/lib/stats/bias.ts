@@ -122,6 +122,10 @@ const REFIT_MAX_ITERATIONS = 200;
  *   bootstrap (Salibian-Barrera & Zamar, Ann Stat 2002): each resample's estimate is reached from the full-data
  *   solution instead of being recomputed from scratch, which is far cheaper and stays close while a resample does
  *   not carry many more outliers than the data.
+ * The first IRLS step of each resample is stretched by the linear correction of that bootstrap,
+ * M = (X'Ψ′X)⁻¹(X'WX) at the full-data estimate and scale (Salibian-Barrera & Zamar 2002, fixed scale), which
+ * lands close to the resample's solution; IRLS then iterates to the same stopping rule, so the correction only
+ * saves iterations and does not change what the refit converges to.
  */
 function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
   let norm: RobustNorm;
@@ -144,6 +148,9 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   const ys = new Float64Array(n);
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
+  const startA = fit.intercept + fit.slope * centre;
+  const startB = fit.slope;
+  const correction = oneStepCorrection(x, y, centre, startA, startB, fixedScale ?? fit.scale ?? 0, norm);
   return (indices) => {
     const size = indices.length;
     const r = size === n ? residuals : residuals.subarray(0, size);
@@ -152,8 +159,8 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
       xs[i] = x[indices[i]] - centre;
       ys[i] = y[indices[i]];
     }
-    let a = fit.intercept + fit.slope * centre;
-    let b = fit.slope;
+    let a = startA;
+    let b = startB;
     let scale = fixedScale ?? fit.scale ?? 0;
     for (let iteration = 0; iteration < REFIT_MAX_ITERATIONS; iteration++) {
       for (let i = 0; i < size; i++) r[i] = ys[i] - a - b * xs[i];
@@ -177,8 +184,15 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
       if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
         throw new StatsInputError('the weighted line fit is singular: the weighted samples all have the same x value', { field: 'x' });
       }
-      const nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
-      const nextA = (sumWY - nextB * sumWX) / sumW;
+      let nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
+      let nextA = (sumWY - nextB * sumWX) / sumW;
+      if (iteration === 0 && correction) {
+        // the first step from the full-data estimate, stretched by the one-step correction (a better start only)
+        const stepA = nextA - startA;
+        const stepB = nextB - startB;
+        nextA = startA + correction[0] * stepA + correction[1] * stepB;
+        nextB = startB + correction[2] * stepA + correction[3] * stepB;
+      }
       // relative change of (intercept, slope) on the original x scale, as in the full fit
       const change = Math.hypot(nextA - nextB * centre - (a - b * centre), nextB - b) / Math.max(1e-20, Math.hypot(a - b * centre, b));
       a = nextA;
@@ -187,6 +201,46 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     }
     return [a - b * centre, b];
   };
+}
+
+/**
+ * The 2 × 2 one-step correction M = (X'Ψ′X)⁻¹(X'WX) of the fast and robust bootstrap (Salibian-Barrera & Zamar,
+ * Ann Stat 2002; here with the scale held fixed) at the full-data line (a at `centre`, b) and scale, in the centred
+ * coordinates [1, x − centre], row-major; null when X'Ψ′X is not positive definite (then no correction is used).
+ */
+function oneStepCorrection(
+  x: readonly number[],
+  y: readonly number[],
+  centre: number,
+  a: number,
+  b: number,
+  scale: number,
+  norm: RobustNorm,
+): [number, number, number, number] | null {
+  if (!(scale > 0)) return null;
+  let w0 = 0;
+  let w1 = 0;
+  let w2 = 0;
+  let p0 = 0;
+  let p1 = 0;
+  let p2 = 0;
+  for (let i = 0; i < x.length; i++) {
+    const xc = x[i] - centre;
+    const u = (y[i] - a - b * xc) / scale;
+    const w = norm.weight(u);
+    const d = norm.psiDeriv(u);
+    w0 += w;
+    w1 += w * xc;
+    w2 += w * xc * xc;
+    p0 += d;
+    p1 += d * xc;
+    p2 += d * xc * xc;
+  }
+  const det = p0 * p2 - p1 * p1;
+  if (!(p0 > 0 && det > 1e-12 * p0 * p2)) return null;
+  // (X'Ψ′X)⁻¹ = [[p2, −p1], [−p1, p0]] / det, times X'WX = [[w0, w1], [w1, w2]]
+  const m = [(p2 * w0 - p1 * w1) / det, (p2 * w1 - p1 * w2) / det, (p0 * w1 - p1 * w0) / det, (p0 * w2 - p1 * w1) / det] as const;
+  return m.every(Number.isFinite) ? [m[0], m[1], m[2], m[3]] : null;
 }
 
 /**

@@ -122,10 +122,11 @@ const REFIT_MAX_ITERATIONS = 200;
  *   bootstrap (Salibian-Barrera & Zamar, Ann Stat 2002): each resample's estimate is reached from the full-data
  *   solution instead of being recomputed from scratch, which is far cheaper and stays close while a resample does
  *   not carry many more outliers than the data.
- * The first IRLS step of each resample is stretched by the linear correction of that bootstrap,
+ * For Huber the first IRLS step of each resample is stretched by the linear correction of that bootstrap,
  * M = (X'Ψ′X)⁻¹(X'WX) at the full-data estimate and scale (Salibian-Barrera & Zamar 2002, fixed scale), which
- * lands close to the resample's solution; IRLS then iterates to the same stopping rule, so the correction only
- * saves iterations and does not change what the refit converges to.
+ * lands close to the resample's solution; IRLS then iterates to the same stopping rule, and as Huber's solution
+ * is unique the correction only saves iterations. Redescending fits (Tukey, Hampel, MM) are not corrected: a
+ * stretched step could carry them to another local minimum than the plain warm start reaches.
  */
 function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
   let norm: RobustNorm;
@@ -150,7 +151,8 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   const scratch = new Float64Array(n);
   const startA = fit.intercept + fit.slope * centre;
   const startB = fit.slope;
-  const correction = oneStepCorrection(x, y, centre, startA, startB, fixedScale ?? fit.scale ?? 0, norm);
+  // only for convex ρ (Huber), whose solution is unique: a redescending fit could be sent to another local minimum
+  const correction = norm.convex ? oneStepCorrection(x, y, centre, startA, startB, fit.scale ?? 0, norm) : null;
   return (indices) => {
     const size = indices.length;
     const r = size === n ? residuals : residuals.subarray(0, size);

@@ -6,7 +6,8 @@ import { quantileOfSorted } from '../../../../src/lib/stats/bootstrap';
 import { fitDeming } from '../../../../src/lib/stats/deming';
 import { tQuantile } from '../../../../src/lib/stats/distributions';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
-import { fitRobustLine } from '../../../../src/lib/stats/mEstimator';
+import { fitMEstimator, fitRobustLine } from '../../../../src/lib/stats/mEstimator';
+import { tukeyBisquareNorm } from '../../../../src/lib/stats/norms';
 import { fitLadLine, ladLine } from '../../../../src/lib/stats/lad';
 import { fitMMLine } from '../../../../src/lib/stats/mm';
 import { fitOlsLine } from '../../../../src/lib/stats/ols';
@@ -162,6 +163,31 @@ describe('bootstrapBiasIntervals', () => {
         expect(ours.intervals[k][1]).toBeCloseTo(reference[k][1], 9);
       });
     }
+  });
+
+  it('Tukey and MM: the corrected warm start converges where plain IRLS from the full-data estimate does', () => {
+    const tukey = fitRobustLine(x, y, 'tukey');
+    const oursTukey = bootstrapBiasIntervals(x, y, tukey, levels, { seed: 8, resamples: 200, method: 'percentile' });
+    const plainTukey = fullRefitPercentile(x, y, (a, b) => fitRobustLine(a, b, 'tukey', { start: [tukey.intercept, tukey.slope] }), 8, 200);
+    const mm = fitMMLine(x, y);
+    const oursMM = bootstrapBiasIntervals(x, y, mm, levels, { seed: 8, resamples: 200, method: 'percentile' });
+    // the MM M-step at the full-data S-scale, from the full-data MM coefficients
+    const plainMM = fullRefitPercentile(
+      x,
+      y,
+      (a, b) => {
+        const m = fitMEstimator(a.map((v) => [1, v]), b, tukeyBisquareNorm(), { start: [mm.intercept, mm.slope], fixedScale: mm.scale });
+        return { intercept: m.coefficients[0], slope: m.coefficients[1] };
+      },
+      8,
+      200,
+    );
+    levels.forEach((_, k) => {
+      for (const end of [0, 1]) {
+        expect(oursTukey.intervals[k][end]).toBeCloseTo(plainTukey[k][end], 3);
+        expect(oursMM.intervals[k][end]).toBeCloseTo(plainMM[k][end], 3);
+      }
+    });
   });
 
   it('LAD: each resample is refitted with the exact LAD line', () => {

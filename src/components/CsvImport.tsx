@@ -130,6 +130,11 @@ export default function CsvImport({ slug, studyId, rules }: Props) {
         worker.terminate();
       }
     };
+    worker.onerror = (event) => {
+      setStep({ name: 'choose' });
+      setProblem({ detail: `The file could not be read in the browser (${event.message || 'the reader stopped'}); try again.`, list: [] });
+      worker.terminate();
+    };
     worker.postMessage({ file });
   }
 

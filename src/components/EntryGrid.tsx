@@ -75,6 +75,13 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
     return () => window.removeEventListener(RESULTS_CHANGED, reload);
   }, [loaded.refetch]);
 
+  /** Saves run one after another, so rows keep the order they were typed in and a row is never sent twice at once. */
+  const queue = useRef<Promise<void>>(Promise.resolve());
+  const enqueueSave = (key: string, reason?: string) => {
+    queue.current = queue.current.then(() => save(key, reason)).catch((error) => console.error(error));
+    return queue.current;
+  };
+
   async function save(key: string, reason?: string) {
     const row = rowsRef.current.find((r) => r.key === key);
     if (!row || row.status === 'saving' || row.status === 'conflict' || isBlank(row)) return;
@@ -97,13 +104,14 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
         : await api<{ row: GridRow; warnings: { field: string; message: string }[] }>('POST', `${base}/samples`, body);
       setWarningsByRow((all) => ({ ...all, [key]: Object.fromEntries(answer.warnings.map((w) => [w.field, w.message])) }));
       updateRow(key, (r) => {
+        // Untouched since sending: show the values as stored ("12,5" becomes 12.5). Otherwise typing went on meanwhile.
+        if (r.cells === sent) return { ...r, saved: answer.row, cells: cellsOf(answer.row, rules.replicates), status: 'saved', message: null };
         const next = { ...r, saved: answer.row, message: null };
-        // Typing may have gone on while the save was on its way.
-        return { ...next, status: r.cells === sent || !isDirty(next, rules.replicates) ? 'saved' : 'dirty' };
+        return { ...next, status: isDirty(next, rules.replicates) ? 'dirty' : 'saved' };
       });
       window.dispatchEvent(new CustomEvent(RESULTS_CHANGED, { detail: { source: 'grid' } }));
       const after = rowsRef.current.find((r) => r.key === key);
-      if (after?.status === 'dirty' && focusedKey.current !== key) void save(key);
+      if (after?.status === 'dirty' && focusedKey.current !== key) void enqueueSave(key);
     } catch (error) {
       if (error instanceof ApiError && error.status === 409 && error.problem.current) {
         const current = error.problem.current as GridRow;
@@ -133,7 +141,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
               : { ...r, saved: theirs, conflict: null, status: 'dirty', message: null },
         ),
     );
-    if (keep === 'mine') void save(key);
+    if (keep === 'mine') void enqueueSave(key);
   }
 
   function focusCell(rowIndex: number, colIndex: number) {
@@ -146,7 +154,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
 
   function onCellFocus(key: string) {
     if (focusedKey.current && focusedKey.current !== key) {
-      void save(focusedKey.current);
+      void enqueueSave(focusedKey.current);
       tabAnchor.current = null;
     }
     focusedKey.current = key;
@@ -154,7 +162,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
 
   function onGridBlur(event: React.FocusEvent) {
     if (container.current?.contains(event.relatedTarget as Node | null) || reasonFor) return;
-    if (focusedKey.current) void save(focusedKey.current);
+    if (focusedKey.current) void enqueueSave(focusedKey.current);
     focusedKey.current = null;
   }
 
@@ -163,8 +171,10 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
     const last = fields.length - 1;
     const move = (r: number, c: number) => {
       event.preventDefault();
-      // A fresh blank row appears after a row is typed into; wait for it to render.
-      requestAnimationFrame(() => focusCell(Math.max(0, Math.min(r, rowsRef.current.length - 1)), c));
+      const target = Math.max(0, Math.min(r, rowsRef.current.length - 1));
+      // Focus at once, so fast typing lands in the next cell; a row not rendered yet gets focus on the next frame.
+      if (container.current?.querySelector(`[data-cell="${target}:${c}"]`)) focusCell(target, c);
+      else requestAnimationFrame(() => focusCell(target, c));
     };
     if (event.key === 'Tab') {
       tabAnchor.current ??= colIndex;
@@ -218,9 +228,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
       });
       return next;
     });
-    void (async () => {
-      for (const key of touched) await save(key);
-    })();
+    for (const key of touched) void enqueueSave(key);
   }
 
   const columns = useMemo(() => {
@@ -313,7 +321,10 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
                         aria-describedby={`row-status-${row.key}`}
                         title={error ?? warning ?? undefined}
                         value={value}
-                        onFocus={() => onCellFocus(row.key)}
+                        onFocus={(e) => {
+                          e.currentTarget.select();
+                          onCellFocus(row.key);
+                        }}
                         onChange={(e) => onCellChange(row.key, id, e.currentTarget.value)}
                         onKeyDown={(e) => onCellKeyDown(e, rowIndex, colIndex)}
                         onPaste={(e) => onCellPaste(e, rowIndex, colIndex)}
@@ -377,7 +388,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
           onSave={(reason) => {
             const key = reasonFor.key;
             setReasonFor(null);
-            void save(key, reason);
+            void enqueueSave(key, reason);
           }}
           onCancel={() => {
             updateRow(reasonFor.key, (r) => ({ ...r, message: 'Not saved: a change to saved values needs a reason.' }));

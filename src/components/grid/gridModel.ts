@@ -4,7 +4,7 @@
  * and paste logic stay out of the component.
  */
 import type { GridRow } from '../../server/results';
-import { checkSampleRow, parseFlags, type ResultRules, type RowMessage, type SpecimenFlag } from '../../lib/resultParsing';
+import { checkSampleRow, formatResultValue, parseFlags, parseResultValue, parseRunDate, type ResultRules, type RowMessage, type SpecimenFlag } from '../../lib/resultParsing';
 
 /** Where a row stands. */
 export type RowStatus = 'saved' | 'dirty' | 'saving' | 'invalid' | 'conflict' | 'failed';
@@ -68,10 +68,33 @@ export function savedRow(row: GridRow, replicates: number): DraftRow {
 
 export const isBlank = (row: DraftRow) => row.saved === null && Object.values(row.cells).every((v) => v.trim() === '');
 
+/**
+ * A cell's text in the form it is stored, so "12,5" and "12.5" (or "17.11.2026" and "2026-11-17") count as the same.
+ *
+ * @example
+ * canonicalCell('comparative.1', ' 12,50 '); // '12.5'
+ */
+export function canonicalCell(field: string, text: string): string {
+  const trimmed = text.trim();
+  if (field.startsWith('comparative.') || field.startsWith('candidate.')) {
+    const parsed = parseResultValue(trimmed);
+    return parsed.kind === 'value' ? formatResultValue(parsed) : trimmed;
+  }
+  if (field === 'runDate') {
+    const parsed = parseRunDate(trimmed);
+    return parsed.ok ? (parsed.date ?? '') : trimmed;
+  }
+  if (field === 'flags') {
+    const parsed = parseFlags(trimmed);
+    return parsed.ok ? [...parsed.flags].sort().join(',') : trimmed;
+  }
+  return trimmed;
+}
+
 /** Whether the row's cells differ from what is saved. */
 export function isDirty(row: DraftRow, replicates: number): boolean {
   const saved = cellsOf(row.saved, replicates);
-  return Object.keys(row.cells).some((field) => row.cells[field].trim() !== saved[field].trim());
+  return Object.keys(row.cells).some((field) => canonicalCell(field, row.cells[field]) !== canonicalCell(field, saved[field]));
 }
 
 /**
@@ -85,7 +108,7 @@ export function changedSavedValues(row: DraftRow, replicates: number): string[] 
   const saved = cellsOf(row.saved, replicates);
   return gridFields(replicates)
     .filter((f) => f === 'code' || f.startsWith('comparative.') || f.startsWith('candidate.'))
-    .filter((f) => saved[f].trim() !== '' && saved[f].trim() !== row.cells[f].trim());
+    .filter((f) => saved[f].trim() !== '' && canonicalCell(f, saved[f]) !== canonicalCell(f, row.cells[f]));
 }
 
 /**

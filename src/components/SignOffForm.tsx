@@ -107,7 +107,19 @@ function Form({ slug, studyId, version, analysisRunId, meaning, signerName }: Si
         <p className="mt-1 text-neutral-600">Signed as {signerName}, medical director, with the time recorded in UTC.</p>
       </section>
       <div className="max-w-sm">
-        <Field label="Your password" name="password" type="password" autoComplete="current-password" error={errors.password} hint="Entering it again confirms that it is you who signs." />
+        <Field
+          label="Your password"
+          name="password"
+          type="password"
+          autoComplete="current-password"
+          error={errors.password}
+          hint="Entering it again confirms that it is you who signs."
+          onChange={() => {
+            if (!errors.password) return;
+            setErrors(({ password: _answered, ...rest }) => rest);
+            setMessage(null);
+          }}
+        />
       </div>
       {message && <FormMessage tone={message.tone}>{message.text}</FormMessage>}
       <div>
@@ -122,6 +134,65 @@ export default function SignOffForm(props: SignOffFormProps) {
   return (
     <QueryRoot>
       <Form {...props} />
+    </QueryRoot>
+  );
+}
+
+interface ReturnProps {
+  slug: string;
+  studyId: string;
+  version: number;
+}
+
+function Return({ slug, studyId, version }: ReturnProps) {
+  const [error, setError] = useState<string | null>(null);
+  const send = useMutation({
+    mutationFn: (reason: string) => api('POST', `/api/labs/${slug}/studies/${studyId}/return`, { reason, version }),
+    onSuccess: () => window.location.reload(),
+    onError: (e) => setError(e instanceof ApiError ? e.problem.errors?.[0]?.message ?? e.problem.detail : String(e)),
+  });
+  function submit(event: FormEvent<HTMLFormElement>) {
+    event.preventDefault();
+    const reason = String(new FormData(event.currentTarget).get('reason') ?? '').trim();
+    if (!reason) return setError('Say what needs to change before you can sign.');
+    setError(null);
+    send.mutate(reason);
+  }
+  return (
+    <form onSubmit={submit} className="grid max-w-3xl gap-2 rounded border border-neutral-200 bg-white p-4" noValidate data-testid="return-for-changes">
+      <h2 className="text-lg font-semibold text-brand-900">Or return it unsigned</h2>
+      <p className="text-sm text-neutral-600">The study goes back to collecting results; the lab scientists are e-mailed your reason and submit it again after a new analysis.</p>
+      <label htmlFor="return-reason" className="text-sm font-medium text-neutral-800">
+        What needs to change
+      </label>
+      <textarea
+        id="return-reason"
+        name="reason"
+        rows={2}
+        maxLength={2000}
+        aria-invalid={error ? true : undefined}
+        aria-describedby={error ? 'return-reason-error' : undefined}
+        className="rounded border border-neutral-300 bg-white px-2.5 py-1.5 aria-[invalid]:border-attention-600"
+      />
+      {error && (
+        <p id="return-reason-error" className="text-xs text-attention-800" role="alert">
+          ⚠ {error}
+        </p>
+      )}
+      <div>
+        <button type="submit" disabled={send.isPending} className="rounded border border-brand-700 px-4 py-1.5 font-medium text-brand-800 hover:bg-brand-50 disabled:opacity-60">
+          {send.isPending ? 'Working…' : 'Return for changes'}
+        </button>
+      </div>
+    </form>
+  );
+}
+
+/** The medical director's other answer to a study in review: back to collecting, with what needs to change. */
+export function ReturnForChanges(props: ReturnProps) {
+  return (
+    <QueryRoot>
+      <Return {...props} />
     </QueryRoot>
   );
 }

@@ -73,3 +73,12 @@ export function studySignedMail(input: { laboratory: string; study: string; sign
     { label: 'Open the study', url: input.url },
   );
 }
+
+export function studyReturnedMail(input: { laboratory: string; study: string; returnedBy: string; reason: string; url: string }): MailContent {
+  return compose(
+    'study-returned',
+    `Returned for changes: ${input.study}`,
+    [`${input.returnedBy} returned the study "${input.study}" at ${input.laboratory} to collecting results without signing it.`, `Reason: ${input.reason}`],
+    { label: 'Open the study', url: input.url },
+  );
+}

@@ -1,18 +1,19 @@
 /**
  * Sign-off: a lab scientist submits a study whose analysis is current (Collecting → In review) and every medical
  * director of the laboratory is e-mailed; a medical director re-enters the password and signs a verdict
- * (In review → Signed), which locks the study in the database itself (triggers of drizzle/0004_signed_study_lock.sql);
- * a lab scientist amends a signed study by opening its next revision with a copy of its data.
+ * (In review → Signed), which locks the study in the database itself (triggers of drizzle/0004_signed_study_lock.sql),
+ * or returns it with a reason (In review → Collecting); a lab scientist amends a signed study by opening its next
+ * revision with a copy of its data.
  */
-import { and, asc, desc, eq, isNull } from 'drizzle-orm';
+import { and, asc, desc, eq, isNull, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import { getDb } from './db';
-import { auditEvents, exclusions, memberships, results, samples, signatures, studies, studyAssignments, user, VERDICTS, type Role, type Verdict } from '../db/schema';
+import { auditEvents, exclusions, memberships, rateLimit, results, samples, signatures, studies, studyAssignments, user, VERDICTS, type Role, type Verdict } from '../db/schema';
 import { recordAudit } from './audit';
 import { getCurrentAnalysis } from './analysis';
 import { reauthenticate } from './auth';
 import { sendMail } from './mail';
-import { signOffRequestedMail, studySignedMail } from './mailTemplates';
+import { signOffRequestedMail, studyReturnedMail, studySignedMail } from './mailTemplates';
 import { notFound, Problem, conflict } from './problem';
 import { isUuid, STUDY_TRANSITIONS } from './studies';
 import { VERDICT_LABELS } from '../lib/labels';
@@ -68,6 +69,13 @@ export const signSchema = z
     if (body.verdict !== 'accepted' && body.comment === '') ctx.addIssue({ code: 'custom', path: ['comment'], message: COMMENT_NEEDED[body.verdict] });
   });
 export type SignBody = z.output<typeof signSchema>;
+
+/** Body of a return for changes: why the director sends the study back unsigned, and the version seen. */
+export const returnSchema = z.object({
+  reason: z.string().trim().min(1, 'Say what needs to change before you can sign.').max(2000),
+  version: z.number().int().min(1),
+});
+export type ReturnBody = z.output<typeof returnSchema>;
 
 /** Body of an amendment: why the signed study is reopened, and the version seen. */
 export const amendSchema = z.object({
@@ -181,6 +189,40 @@ export async function submitForSignOff(actor: { id: string; name: string }, lab:
   return { study, notified: sent, mailFailed: failed };
 }
 
+/** Wrong passwords a person may give at signing within the window before signing is refused for the rest of it. */
+export const SIGNATURE_PASSWORD_LIMIT = { attempts: 5, windowMs: 15 * 60_000 } as const;
+
+const attemptKey = (userId: string) => `signature-password:${userId}`;
+
+/**
+ * Checks the password re-entered for a signature, counting wrong ones per person (in the shared rate-limit table,
+ * so every app server sees the same count): 403 for a wrong password, 429 once the limit is reached.
+ */
+async function confirmSigner(userId: string, password: string) {
+  const db = getDb();
+  const now = Date.now();
+  const [row] = await db.select().from(rateLimit).where(eq(rateLimit.key, attemptKey(userId)));
+  const recent = row && now - row.lastRequest < SIGNATURE_PASSWORD_LIMIT.windowMs ? row.count : 0;
+  if (recent >= SIGNATURE_PASSWORD_LIMIT.attempts) {
+    throw new Problem(429, 'Too many wrong passwords', `Signing is paused for ${SIGNATURE_PASSWORD_LIMIT.windowMs / 60_000} minutes after ${SIGNATURE_PASSWORD_LIMIT.attempts} wrong passwords; nothing was signed.`);
+  }
+  if (await reauthenticate(userId, password)) {
+    if (row) await db.delete(rateLimit).where(eq(rateLimit.key, attemptKey(userId)));
+    return;
+  }
+  await db
+    .insert(rateLimit)
+    .values({ id: crypto.randomUUID(), key: attemptKey(userId), count: recent + 1, lastRequest: now })
+    .onConflictDoUpdate({
+      target: rateLimit.key,
+      // Counted in the statement, so that wrong passwords sent at the same moment all count.
+      set: { count: sql`case when ${now} - ${rateLimit.lastRequest} < ${SIGNATURE_PASSWORD_LIMIT.windowMs} then ${rateLimit.count} + 1 else 1 end`, lastRequest: now },
+    });
+  throw new Problem(403, 'Signature refused', 'The password is not right, so nothing was signed. Enter the password you sign in with.', [
+    { field: 'password', message: 'The password is not right.' },
+  ]);
+}
+
 /** The analysis run and inputs hash the study was submitted with (its latest submission). */
 async function submittedRun(tx: Tx, laboratoryId: string, studyId: string) {
   const [event] = await tx
@@ -193,10 +235,11 @@ async function submittedRun(tx: Tx, laboratoryId: string, studyId: string) {
 }
 
 /**
- * Signs a study in review: the password is checked again (403, nothing written, when wrong); the analysis must be
- * the one submitted and still current (409 otherwise). In one transaction the signature row (printed name, role,
- * UTC time, meaning, verdict, comment, analysis run and inputs hash) is written, the study becomes Signed with the
- * verdict, and both are audited; then the lab scientists are e-mailed.
+ * Signs a study in review. The password is checked again (403 when wrong, 429 after too many wrong ones; no
+ * signature, state or audit event is written) and the analysis must be the one submitted and still current (409
+ * otherwise). In one transaction the signature row (printed name, role, UTC time, meaning, verdict, comment,
+ * analysis run and inputs hash) is written, the study becomes Signed with the verdict, and both are audited; then
+ * the lab scientists are e-mailed.
  *
  * @example
  * await signStudy({ id: user.id, name: user.name, role: 'medical_director' }, lab, studyId, signSchema.parse(body), PUBLIC_BASE_URL);
@@ -204,11 +247,7 @@ async function submittedRun(tx: Tx, laboratoryId: string, studyId: string) {
 export async function signStudy(actor: { id: string; name: string; role: Role }, lab: SignOffLab, studyId: string | undefined, body: SignBody, baseUrl: string) {
   if (!isUuid(studyId)) throw notFound('study');
   const step = STUDY_TRANSITIONS.sign;
-  if (!(await reauthenticate(actor.id, body.password))) {
-    throw new Problem(403, 'Signature refused', 'The password is not right, so nothing was signed. Enter the password you sign in with.', [
-      { field: 'password', message: 'The password is not right.' },
-    ]);
-  }
+  await confirmSigner(actor.id, body.password);
   const signed = await getDb().transaction(async (tx) => {
     const current = await lockStudy(tx, lab.id, studyId, body.version);
     if (current.state !== step.from) throw notInState(step.label, step.from, current);
@@ -267,6 +306,29 @@ export async function signStudy(actor: { id: string; name: string; role: Role },
   const mail = studySignedMail({ laboratory: lab.name, study: signed.study.title, signer: actor.name, verdict: VERDICT_LABELS[body.verdict].word, url: signPageUrl(baseUrl, lab, studyId) });
   const { sent, failed } = await notify(scientists, mail, lab.id);
   return { ...signed, notified: sent, mailFailed: failed };
+}
+
+/**
+ * Returns a study in review to Collecting without a signature, with the director's reason (audited); the lab
+ * scientists are e-mailed. Its data and exclusions can change again, and it is submitted again after a new analysis.
+ *
+ * @example
+ * await returnForChanges({ id: user.id, name: user.name }, lab, studyId, { reason: 'Add samples above 300 mg/dL', version: 3 }, PUBLIC_BASE_URL);
+ */
+export async function returnForChanges(actor: { id: string; name: string }, lab: SignOffLab, studyId: string | undefined, body: ReturnBody, baseUrl: string) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const step = STUDY_TRANSITIONS.return_for_changes;
+  const study = await getDb().transaction(async (tx) => {
+    const current = await lockStudy(tx, lab.id, studyId, body.version);
+    if (current.state !== step.from) throw notInState(step.label, step.from, current);
+    const [updated] = await tx.update(studies).set({ state: step.to, version: current.version + 1, updatedAt: new Date() }).where(eq(studies.id, studyId)).returning();
+    await recordAudit(tx, { laboratoryId: lab.id, actorUserId: actor.id, action: step.audit, entityType: 'study', entityId: studyId, data: { from: step.from, to: step.to, reason: body.reason } });
+    return updated;
+  });
+  const scientists = await labPeople(lab.id, 'lab_scientist');
+  const mail = studyReturnedMail({ laboratory: lab.name, study: study.title, returnedBy: actor.name, reason: body.reason, url: signPageUrl(baseUrl, lab, studyId) });
+  const { sent, failed } = await notify(scientists, mail, lab.id);
+  return { study, notified: sent, mailFailed: failed };
 }
 
 const COPY_BATCH = 1000;

@@ -37,6 +37,7 @@ export const STUDY_TRANSITIONS = {
   // Taken only through the sign-off service (src/server/signoff.ts), which checks the analysis and the signature.
   submit_for_sign_off: { from: 'collecting', to: 'in_review', action: 'study.submit', audit: 'study.submitted_for_sign_off', label: 'Submit for sign-off' },
   sign: { from: 'in_review', to: 'signed', action: 'study.sign', audit: 'study.signed', label: 'Sign the study' },
+  return_for_changes: { from: 'in_review', to: 'collecting', action: 'study.sign', audit: 'study.returned_for_changes', label: 'Return for changes' },
 } as const satisfies Record<string, { from: StudyState; to: StudyState; action: Action; audit: string; label: string }>;
 /**
  * The name of a study transition.

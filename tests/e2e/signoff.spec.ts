@@ -20,9 +20,14 @@ async function personPage(browser: Browser, role: Role): Promise<Page> {
   return page;
 }
 
-async function ok(response: Awaited<ReturnType<APIRequestContext['get']>>, status = 200) {
+interface StudyBody {
+  study: { id: string; version: number; state: string; verdict: string | null };
+}
+
+/** The JSON of an answer expected to have `status` (its body is shown when it does not). */
+async function ok<T>(response: Awaited<ReturnType<APIRequestContext['get']>>, status = 200): Promise<T> {
   expect(response.status(), await response.text()).toBe(status);
-  return response.json();
+  return (await response.json()) as T;
 }
 
 test('a study goes from submission through the e-mailed link to a signature, is locked, and its dossier downloads', async ({ browser }) => {
@@ -30,14 +35,14 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   const scientist = await personPage(browser, 'lab_scientist');
 
   // The scientist opens a study of the demo's approved protocol and starts collecting.
-  const { protocols } = await ok(await scientist.request.get(`${api}/protocols`));
-  const approved = protocols.flatMap((p: { versions: { id: string; status: string }[] }) => p.versions).find((v: { status: string }) => v.status === 'approved');
+  const { protocols } = await ok<{ protocols: { versions: { id: string; status: string }[] }[] }>(await scientist.request.get(`${api}/protocols`));
+  const approved = protocols.flatMap((p) => p.versions).find((v) => v.status === 'approved');
   expect(approved, 'the demo has an approved protocol version').toBeTruthy();
-  const opened = await ok(
+  const opened = await ok<StudyBody>(
     await scientist.request.post(`${api}/studies`, {
       data: {
         title: TITLE,
-        protocolVersionId: approved.id,
+        protocolVersionId: approved!.id,
         candidate: { instrument: 'Bench analyser "Plover" (serial PL-22)', reagentLot: 'GLU-2612-C', softwareVersion: '1.4' },
         comparative: { instrument: 'Core analyser "Heron" (serial HR-1187)', reagentLot: 'GLU-2609-A', softwareVersion: '7.0.3' },
         technicianIds: [],
@@ -61,7 +66,7 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   // The analysis runs; its bootstrap job finishes in the background.
   const started = await scientist.request.post(`${base}/analysis`, { data: {} });
   expect([200, 201], await started.text()).toContain(started.status());
-  await expect.poll(async () => (await ok(await scientist.request.get(`${base}/analysis`))).bootstrapDone, { timeout: 120_000, intervals: [500] }).toBe(true);
+  await expect.poll(async () => (await ok<{ bootstrapDone: boolean }>(await scientist.request.get(`${base}/analysis`))).bootstrapDone, { timeout: 120_000, intervals: [500] }).toBe(true);
 
   // The scientist submits from the sign-off page.
   const signPath = `/labs/${DEMO_LAB.slug}/studies/${studyId}/sign`;
@@ -106,7 +111,7 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   await expect(scientist.getByRole('button', { name: 'Submit for sign-off' })).toHaveCount(0);
   const late = await technician.request.post(`${base}/results`, { data: { results: [{ sampleCode: 'PL-LATE', procedure: 'comparative', replicate: 1, value: 90, unit: 'mg/dL' }] } });
   expect(late.status()).toBe(409);
-  expect((await ok(await scientist.request.get(base))).study).toMatchObject({ state: 'signed', verdict: 'accepted_with_conditions' });
+  expect((await ok<StudyBody>(await scientist.request.get(base))).study).toMatchObject({ state: 'signed', verdict: 'accepted_with_conditions' });
   const told = await waitForMail(demoPerson('lab_scientist').email, `Signed (Accepted with conditions): ${TITLE}`);
   expect(told.text).toContain(signPath);
 

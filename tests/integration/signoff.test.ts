@@ -306,3 +306,46 @@ describe('amendment', () => {
     ]);
   });
 });
+
+describe('returning a study unsigned', () => {
+  it('a director returns a study in review with a reason: it collects results again and the scientists are e-mailed', { timeout: 180_000 }, async () => {
+    const study = await analysedStudy('return');
+    const { lab } = study;
+    expect((await study.scientist.post(`${study.base}/submit`, { version: study.version })).status).toBe(200);
+    const inReview = study.version + 1;
+
+    expect((await study.scientist.post(`${study.base}/return`, { reason: 'Mine', version: inReview })).status).toBe(403);
+    const noReason = await study.director.post(`${study.base}/return`, { reason: '', version: inReview });
+    expect(noReason.status).toBe(422);
+    expect((await problemOf(noReason)).errors?.[0].field).toBe('reason');
+
+    const reason = 'Add five samples above 300 mg/dL: the upper third of the interval is empty';
+    const returned = await study.director.post(`${study.base}/return`, { reason, version: inReview });
+    expect(returned.status).toBe(200);
+    expect((await returned.json()).study).toMatchObject({ state: 'collecting', verdict: null, version: inReview + 1 });
+    const mail = await waitForMail(lab.people.lab_scientist.email, 'Returned for changes');
+    expect(mail.text).toContain(reason);
+    const event = (await auditTrail(getDb(), lab.id, { entityId: study.studyId })).find((e) => e.action === 'study.returned_for_changes');
+    expect(event?.data).toMatchObject({ from: 'in_review', to: 'collecting', reason });
+
+    await enterPairs(study, 5, 31, 'HIGH-');
+    const sign = await study.director.post(`${study.base}/sign`, { verdict: 'accepted', comment: '', password: TEST_PASSWORD, version: inReview + 1, analysisRunId: study.run.id });
+    expect(sign.status).toBe(409);
+    expect(await signatureCount(study.studyId)).toBe(0);
+  });
+});
+
+describe('wrong passwords at signing', () => {
+  it('pauses signing after 5 wrong passwords, even with the right one, and writes no signature', async () => {
+    const study = await collectingStudy('guess');
+    const director = await signIn(study.lab.people.medical_director.email);
+    const body = { verdict: 'accepted', comment: '', version: 2, analysisRunId: crypto.randomUUID() };
+    for (let attempt = 1; attempt <= 5; attempt++) {
+      expect((await director.post(`${study.base}/sign`, { ...body, password: `guess-${attempt}` })).status, `attempt ${attempt}`).toBe(403);
+    }
+    const paused = await director.post(`${study.base}/sign`, { ...body, password: TEST_PASSWORD });
+    expect(paused.status).toBe(429);
+    expect((await problemOf(paused)).detail).toMatch(/Signing is paused for 15 minutes after 5 wrong passwords/);
+    expect(await signatureCount(study.studyId)).toBe(0);
+  });
+});

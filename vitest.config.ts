@@ -3,6 +3,8 @@ import { getViteConfig } from 'astro/config';
 
 // Astro's Vite setup, so that code using astro:env runs under vitest as it does in the app.
 export default getViteConfig({
+  // PostgreSQL clusters, builds and test output hold tens of thousands of files: never watch them.
+  server: { watch: { ignored: ['**/.data/**', '**/.builds/**', '**/dist/**', '**/test-results/**', '**/node_modules/**'] } },
   test: {
     projects: [
       {

@@ -269,7 +269,8 @@ export function leverageGeometry(
     return [{ id, x: h, y: r, cooksDistance: (r * r * h) / (p * (1 - h)) }];
   });
   const threshold = (2 * p) / n;
-  const xAxis = niceAxis(points.map((pt) => pt.x), { include: [0, threshold] });
+  // Leverage starts at 0: no padding below it.
+  const xAxis = niceAxis(points.map((pt) => pt.x), { include: [0, threshold], pad: 0 });
   const yAxis = niceAxis(points.map((pt) => pt.y), { include: [-3, 3] });
   const yLimit = Math.max(Math.abs(yAxis.domain[0]), Math.abs(yAxis.domain[1]));
   const steps = options.steps ?? 80;

@@ -39,7 +39,7 @@ function Workspace({ slug, studyId, canRun, canExclude, standingCaution }: Props
     mutationFn: () => api<AnalysisViewBody & { reused: boolean }>('POST', url),
     onSuccess: (data) => {
       queryClient.setQueryData(['analysis', studyId], data);
-      setMessage({ tone: 'info', text: data.reused ? 'Nothing changed since the last run; it is shown as it was.' : 'Analysis run; the bootstrap intervals are being computed.' });
+      setMessage({ tone: 'info', text: data.reused ? 'Nothing changed since the last run; it is shown as it was.' : 'Analysis run and stored; the bootstrap intervals follow (see their progress above).' });
     },
     onError: (error) => setMessage({ tone: 'error', text: error instanceof ApiError ? error.problem.detail : String(error) }),
   });
@@ -101,7 +101,7 @@ function Workspace({ slug, studyId, canRun, canExclude, standingCaution }: Props
       {results && (
         <>
           <DecisionTable results={results} />
-          <div className="grid gap-4 xl:grid-cols-[minmax(0,1fr)_22rem]">
+          <div className="grid gap-4 xl:grid-cols-[minmax(0,1fr)_26rem]">
             <div className="grid min-w-0 gap-4">
               <Plots results={results} units={results.inputs.settings.units} highlight={highlight} />
               <EstimatorTable analysis={results.analysis} />

@@ -95,7 +95,8 @@ function Legend({ items }: { items: { key: string; label: string; stroke: string
 export function Plots({ results, units, highlight }: { results: StoredResults; units: string; highlight: Highlight }) {
   const analysis: ComparisonAnalysis = results.analysis;
   const { sampleIds, comparative, candidate, fits, primary } = analysis;
-  const methods = (Object.keys(fits) as MethodKey[]).filter((m) => fits[m]);
+  // Stored JSON does not keep key order, so the engine's method list gives the order.
+  const methods = analysis.methods.filter((m) => fits[m]);
   const [differenceKind, setDifferenceKind] = useState<'absolute' | 'percent'>('absolute');
   const weighted = methods.filter((m) => fits[m]?.weights);
   const psi = results.inputs.settings.robust.psi as MNormKey;

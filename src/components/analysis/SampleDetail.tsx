@@ -25,7 +25,7 @@ interface FitRow {
 /** The sample's residual, weight, leverage and Cook's distance in each fit (leverage and D of least-squares steps only). */
 function fitRows(analysis: ComparisonAnalysis, index: number): FitRow[] {
   const { comparative: x, candidate: y } = analysis;
-  return (Object.keys(analysis.fits) as MethodKey[]).flatMap((method) => {
+  return analysis.methods.flatMap((method) => {
     const fit = analysis.fits[method];
     if (!fit) return [];
     const row: FitRow = { method, residual: y[index] - fit.intercept - fit.slope * x[index] };

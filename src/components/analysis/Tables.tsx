@@ -13,7 +13,8 @@ function PrimaryMark() {
 
 /** Every estimator side by side: intercept and slope with their CIs, scale, iterations, convergence and start. */
 export function EstimatorTable({ analysis }: { analysis: ComparisonAnalysis }) {
-  const methods = (Object.keys(analysis.fits) as MethodKey[]).filter((m) => analysis.fits[m]);
+  // Stored JSON does not keep key order, so the engine's method list gives the order.
+  const methods = analysis.methods.filter((m) => analysis.fits[m]);
   const fits = methods.map((m) => analysis.fits[m]!);
   const dA = decimalsFor(fits.flatMap((f) => [f.intercept, ...f.interceptCI]));
   const dB = Math.max(3, decimalsFor(fits.flatMap((f) => [f.slope, ...f.slopeCI])));
@@ -96,6 +97,9 @@ export function DecisionTable({ results }: { results: StoredResults }) {
   const pending = bootstrap.status !== 'done';
   const units = inputs.settings.units;
   const percent = Math.round(100 * (Object.values(analysis.fits)[0]?.confidence ?? 0.95));
+  // Long sources of the allowable limits go under the table, numbered, so the level headers stay short.
+  const sources = [...new Set(inputs.settings.decisionLevels.map((l) => l.allowableBias.source))];
+  const sourceNumber = (source: string) => sources.indexOf(source) + 1;
   return (
     <div className="overflow-x-auto">
       <table className="w-full border-collapse bg-white text-sm" data-testid="decision-table">
@@ -114,7 +118,7 @@ export function DecisionTable({ results }: { results: StoredResults }) {
         </thead>
         {analysis.biasAtDecisionLevels.map((row, k) => {
           const level = inputs.settings.decisionLevels[k];
-          const methods = (Object.keys(row.fits) as MethodKey[]).filter((m) => row.fits[m]);
+          const methods = analysis.methods.filter((m) => row.fits[m]);
           const entries = methods.map((m) => row.fits[m]!);
           const dAbs = decimalsFor(entries.flatMap((e) => [e.bias, ...(e.ci ?? [])]), 3);
           const dPct = decimalsFor(entries.flatMap((e) => [e.percentBias, ...(e.percentCI ?? [])]), 3);
@@ -133,7 +137,7 @@ export function DecisionTable({ results }: { results: StoredResults }) {
                   {row.allowableLimit !== undefined && (
                     <span className="font-normal text-neutral-600">
                       {' '}· allowable bias ±{fixed(row.allowableLimit, dAbs)} {units}
-                      {source ? ` (${source})` : ''}
+                      {source && <sup><a href={`#limit-source-${sourceNumber(source)}`} className="text-brand-700" aria-label={`Source ${sourceNumber(source)} of the limit`}>[{sourceNumber(source)}]</a></sup>}
                     </span>
                   )}
                 </th>
@@ -170,6 +174,11 @@ export function DecisionTable({ results }: { results: StoredResults }) {
           );
         })}
       </table>
+      <ol className="mt-1 grid gap-0.5 text-xs text-neutral-600">
+        {sources.map((source, k) => (
+          <li key={source} id={`limit-source-${k + 1}`}>[{k + 1}] Allowable limit: {source}</li>
+        ))}
+      </ol>
     </div>
   );
 }

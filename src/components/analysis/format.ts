@@ -47,6 +47,8 @@ export function interval(ci: readonly [number, number] | undefined, decimals: nu
  */
 export function tickLabel(value: number, ticks: readonly number[]): string {
   const step = ticks.length > 1 ? Math.abs(ticks[1] - ticks[0]) : 1;
-  const decimals = step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9));
+  let decimals = 0;
+  // The fewest decimals that write the step exactly (0.25 needs 2, 0.5 needs 1).
+  while (decimals < 6 && Math.abs(step * 10 ** decimals - Math.round(step * 10 ** decimals)) > 1e-6) decimals++;
   return fixed(value, decimals);
 }

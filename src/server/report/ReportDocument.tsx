@@ -12,7 +12,7 @@ import { ROLE_LABELS } from '../permissions';
 import type { ReportData, ProcedureText } from './data';
 import { BIAS_VERDICT_WORDS, decimalsFor, fixed, interval, utc } from './format';
 import { PlotFigure } from './PlotFigure';
-import { differenceSpec, scatterLegend, scatterSpec } from './plotSpecs';
+import { differenceSpec, leverageSpec, residualSpec, scatterLegend, scatterSpec } from './plotSpecs';
 
 export const REPORT_FONT = 'Noto Sans';
 /** The Greek letters of the engine's sentences (λ, α) come from Noto Sans' Greek subset. */
@@ -60,7 +60,7 @@ function Table<T>({ columns, rows, empty }: { columns: Column<T>[]; rows: T[]; e
   if (rows.length === 0) return <Text style={styles.muted}>{empty ?? 'None.'}</Text>;
   return (
     <View>
-      <View style={styles.headRow} fixed>
+      <View style={styles.headRow}>
         {columns.map((c, k) => (
           <Text key={k} style={[c.numeric ? styles.num : styles.cell, { width: `${c.width}%` }]}>
             {c.head}
@@ -134,7 +134,7 @@ function DataSummary({ data }: { data: ReportData }) {
   const d = summary.comparativeRange ? decimalsFor(summary.comparativeRange, 4) : 0;
   return (
     <View>
-      <Text style={styles.h2}>Data summary</Text>
+      <Text style={styles.h2} minPresenceAhead={60}>Data summary</Text>
       <KeyValue label="Samples in the study">{String(summary.samples)}</KeyValue>
       <KeyValue label="Analysed pairs (n)">{String(summary.analysed)}</KeyValue>
       <KeyValue label="Excluded samples">{String(summary.excluded)}</KeyValue>
@@ -159,23 +159,43 @@ function Plots({ data }: { data: ReportData }) {
   const units = data.protocol.settings.analyte.units;
   const ba = analysis.blandAltman.absolute;
   const d = decimalsFor([ba.meanDifference, ba.lowerLoA, ba.upperLoA], 3);
+  const residuals = residualSpec(analysis, units);
   return (
-    <View wrap={false}>
-      <Text style={styles.h2}>Plots</Text>
-      <View style={styles.plots}>
-        <View>
-          <Text style={styles.h3}>Candidate against comparative</Text>
-          <PlotFigure spec={scatterSpec(analysis, units)} />
+    <View>
+      <View wrap={false}>
+        <Text style={styles.h2} minPresenceAhead={60}>Plots</Text>
+        <View style={styles.plots}>
+          <View>
+            <Text style={styles.h3}>Candidate against comparative</Text>
+            <PlotFigure id="scatter" spec={scatterSpec(analysis, units)} />
+          </View>
+          <View>
+            <Text style={styles.h3}>Difference against mean</Text>
+            <PlotFigure id="difference" spec={differenceSpec(analysis, units)} />
+          </View>
         </View>
-        <View>
-          <Text style={styles.h3}>Difference against mean</Text>
-          <PlotFigure spec={differenceSpec(analysis, units)} />
-        </View>
+        <Text style={[styles.small, styles.muted]}>{scatterLegend(analysis)}</Text>
+        <Text style={[styles.small, styles.muted]}>
+          {`Difference plot: mean difference ${fixed(ba.meanDifference, d)} ${units} (solid), limits of agreement ${fixed(ba.lowerLoA, d)} and ${fixed(ba.upperLoA, d)} ${units} (dashed, mean ± ${ba.multiplier} SD).`}
+        </Text>
       </View>
-      <Text style={[styles.small, styles.muted]}>{scatterLegend(analysis)}</Text>
-      <Text style={[styles.small, styles.muted]}>
-        {`Difference plot: mean difference ${fixed(ba.meanDifference, d)} ${units} (solid), limits of agreement ${fixed(ba.lowerLoA, d)} and ${fixed(ba.upperLoA, d)} ${units} (dashed, mean ± ${ba.multiplier} SD).`}
-      </Text>
+      <View wrap={false} style={{ marginTop: 6 }}>
+        <View style={styles.plots}>
+          {residuals ? (
+            <View>
+              <Text style={styles.h3}>{`Residuals of the ${methodName(analysis.primary)} fit`}</Text>
+              <PlotFigure id="residuals" spec={residuals} />
+            </View>
+          ) : null}
+          <View>
+            <Text style={styles.h3}>Leverage and influence</Text>
+            <PlotFigure id="leverage" spec={leverageSpec(analysis)} />
+          </View>
+        </View>
+        <Text style={[styles.small, styles.muted]}>
+          {`Leverage plot: dashed curves are Cook's distance 0.5 and 1; the vertical line is the high-leverage threshold 2p/n. The numbers behind every plot are in analysis.json of the dossier.`}
+        </Text>
+      </View>
     </View>
   );
 }
@@ -188,8 +208,8 @@ function Estimators({ data }: { data: ReportData }) {
   const ds = 3;
   const failed = Object.entries(analysis.fitErrors);
   return (
-    <View>
-      <Text style={styles.h2}>Estimators</Text>
+    <View wrap={false}>
+      <Text style={styles.h2} minPresenceAhead={60}>Estimators</Text>
       <Table
         columns={[
           { head: 'Estimator', width: 22, text: (r) => `${methodName(r.method)}${r.method === analysis.primary ? ' (primary)' : ''}` },
@@ -225,22 +245,24 @@ function DecisionLevels({ data }: { data: ReportData }) {
   const methods = (Object.keys(analysis.fits) as MethodKey[]).filter((m) => m !== analysis.primary);
   return (
     <View>
-      <Text style={styles.h2}>Bias at the medical decision levels</Text>
-      <Text style={[styles.small, styles.muted, { marginBottom: 3 }]}>
-        {`Primary estimator ${methodName(analysis.primary)}; units ${units}. Within limit: the whole 95 % CI of the bias lies inside ± the allowable bias. Beyond limit: the whole CI lies outside. Inconclusive: the CI crosses the limit.`}
-      </Text>
-      <Table
-        columns={[
-          { head: 'Level', width: 10, numeric: true, text: (r) => fixed(r.row.level, dl) },
-          { head: 'Allowable ±', width: 11, numeric: true, text: (r) => (r.row.allowableLimit === undefined ? '—' : fixed(r.row.allowableLimit, d)) },
-          { head: 'Bias', width: 10, numeric: true, text: (r) => (r.bias ? fixed(r.bias.bias, d) : '—') },
-          { head: '95 % CI', width: 17, numeric: true, text: (r) => (r.bias?.ci ? interval(r.bias.ci, d) : 'not available') },
-          { head: 'Bias %', width: 9, numeric: true, text: (r) => (r.bias ? fixed(r.bias.percentBias, 2) : '—') },
-          { head: 'Verdict', width: 14, text: (r) => (r.bias?.verdict ? BIAS_VERDICT_WORDS[r.bias.verdict] : 'No verdict') },
-          { head: 'Meaning', width: 29, text: (r) => meaning.get(r.row.level) ?? '' },
-        ]}
-        rows={primaryRows}
-      />
+      <View wrap={false}>
+        <Text style={styles.h2} minPresenceAhead={60}>Bias at the medical decision levels</Text>
+        <Text style={[styles.small, styles.muted, { marginBottom: 3 }]}>
+          {`Primary estimator ${methodName(analysis.primary)}; units ${units}. Within limit: the whole 95 % CI of the bias lies inside ± the allowable bias. Beyond limit: the whole CI lies outside. Inconclusive: the CI crosses the limit.`}
+        </Text>
+        <Table
+          columns={[
+            { head: 'Level', width: 10, numeric: true, text: (r) => fixed(r.row.level, dl) },
+            { head: 'Allowable ±', width: 11, numeric: true, text: (r) => (r.row.allowableLimit === undefined ? '—' : fixed(r.row.allowableLimit, d)) },
+            { head: 'Bias', width: 10, numeric: true, text: (r) => (r.bias ? fixed(r.bias.bias, d) : '—') },
+            { head: '95 % CI', width: 17, numeric: true, text: (r) => (r.bias?.ci ? interval(r.bias.ci, d) : 'not available') },
+            { head: 'Bias %', width: 9, numeric: true, text: (r) => (r.bias ? fixed(r.bias.percentBias, 2) : '—') },
+            { head: 'Verdict', width: 14, text: (r) => (r.bias?.verdict ? BIAS_VERDICT_WORDS[r.bias.verdict] : 'No verdict') },
+            { head: 'Meaning', width: 29, text: (r) => meaning.get(r.row.level) ?? '' },
+          ]}
+          rows={primaryRows}
+        />
+      </View>
       {methods.length > 0 ? (
         <View>
           <Text style={styles.h3}>Verdicts of the other estimators</Text>
@@ -268,7 +290,7 @@ function Cautions({ data }: { data: ReportData }) {
   const analysis = data.run.results.analysis;
   return (
     <View>
-      <Text style={styles.h2}>Cautions</Text>
+      <Text style={styles.h2} minPresenceAhead={60}>Cautions</Text>
       <Text style={{ marginBottom: 3 }}>{`${analysis.standingCaution} The medical director decides under local regulation.`}</Text>
       {analysis.cautions.length === 0 ? <Text style={styles.muted}>The data raised no further cautions.</Text> : null}
       {analysis.cautions.map((c, i) => (
@@ -284,7 +306,7 @@ function Cautions({ data }: { data: ReportData }) {
 function Exclusions({ data }: { data: ReportData }) {
   return (
     <View>
-      <Text style={styles.h2}>Excluded samples</Text>
+      <Text style={styles.h2} minPresenceAhead={60}>Excluded samples</Text>
       <Table
         columns={[
           { head: 'Sample', width: 14, text: (e) => e.sampleCode },
@@ -302,7 +324,7 @@ function Exclusions({ data }: { data: ReportData }) {
 function Signatures({ data }: { data: ReportData }) {
   return (
     <View wrap={false}>
-      <Text style={styles.h2}>Signatures</Text>
+      <Text style={styles.h2} minPresenceAhead={60}>Signatures</Text>
       {data.signatures.length === 0 ? <Text>Not signed yet.</Text> : null}
       {data.signatures.map((s, i) => (
         <View key={i} style={{ marginBottom: 6 }}>
@@ -323,7 +345,7 @@ function AuditSummary({ data }: { data: ReportData }) {
   const { audit } = data;
   return (
     <View>
-      <Text style={styles.h2}>Audit summary</Text>
+      <Text style={styles.h2} minPresenceAhead={60}>Audit summary</Text>
       <KeyValue label="Chain of the laboratory">
         {audit.chain.intact ? 'Intact: every event links to the one before it and matches its hash.' : `Broken at event ${audit.chain.brokenAt.id}: ${audit.chain.brokenAt.problem}.`}
       </KeyValue>

@@ -1,89 +1,118 @@
 /**
- * The report's plots in data units, from a stored analysis: the scatter of candidate against comparative with
- * the identity line, the primary fit with its confidence band and the other fits; the difference plot with the
- * mean difference and the limits of agreement.
+ * The report's plots, from the shared plot geometry (the web plots use the same): the scatter with the identity
+ * line, every fit and the primary fit's CI band; the difference plot with the limits of agreement; residuals of the
+ * primary fit; leverage with Cook's distance contours. Here only styles, labels and the marked samples are added.
  */
-import { meanResponseInterval } from '../../lib/stats/ols';
+import { differenceGeometry, leverageGeometry, residualGeometry, scatterGeometry } from '../../lib/plotGeometry';
 import { methodName } from '../../lib/stats/cautions';
 import type { ComparisonAnalysis } from '../../lib/stats/analysis';
 import type { LineFit, MethodKey } from '../../lib/stats/types';
-import type { PlotLine, PlotSpec } from './PlotFigure';
+import type { PlotPoint, PlotSpec } from './PlotFigure';
 
-const BAND_STEPS = 24;
+const markedOf = (analysis: ComparisonAnalysis) => {
+  const outliers = new Set(analysis.esd.outlierSampleIds);
+  return <T extends { id: string; x: number; y: number }>(p: T): PlotPoint => ({ x: p.x, y: p.y, marked: outliers.has(p.id) });
+};
 
-function padded(lo: number, hi: number, share = 0.05): [number, number] {
-  const span = hi - lo || Math.abs(hi) || 1;
-  return [lo - span * share, hi + span * share];
-}
+const fittedMethods = (analysis: ComparisonAnalysis) => (Object.keys(analysis.fits) as MethodKey[]).filter((m) => analysis.fits[m]);
 
 /**
- * Scatter plot geometry: points (ESD outliers marked), identity line, every fit over the data's x range (the
- * primary one drawn strong) and the primary fit's pointwise confidence band when it has a covariance matrix.
+ * Candidate against comparative: identity line, every fit (the primary one strong) and the primary fit's CI band.
  *
  * @example
- * const spec = scatterSpec(analysis, 'mg/dL');
- * spec.lines[0].style; // 'identity'
+ * scatterSpec(analysis, 'mg/dL').lines[0].style; // 'identity'
  */
 export function scatterSpec(analysis: ComparisonAnalysis, units: string): PlotSpec {
-  const xs = analysis.comparative;
-  const ys = analysis.candidate;
-  const lo = Math.min(...xs, ...ys);
-  const hi = Math.max(...xs, ...ys);
-  const domain = padded(lo, hi);
-  const xMin = Math.min(...xs);
-  const xMax = Math.max(...xs);
-  const marked = new Set(analysis.esd.outlierIndices);
-  const lines: PlotLine[] = [{ from: [domain[0], domain[0]], to: [domain[1], domain[1]], style: 'identity' }];
-  for (const method of Object.keys(analysis.fits) as MethodKey[]) {
-    if (method === analysis.primary) continue;
-    const fit = analysis.fits[method] as LineFit;
-    lines.push({ from: [xMin, fit.intercept + fit.slope * xMin], to: [xMax, fit.intercept + fit.slope * xMax], style: 'secondary' });
-  }
-  const primary = analysis.fits[analysis.primary];
-  let band: [number, number][] | undefined;
-  if (primary) {
-    lines.push({ from: [xMin, primary.intercept + primary.slope * xMin], to: [xMax, primary.intercept + primary.slope * xMax], style: 'primary' });
-    if (primary.covariance && primary.df !== undefined) {
-      const grid = Array.from({ length: BAND_STEPS + 1 }, (_, i) => xMin + ((xMax - xMin) * i) / BAND_STEPS);
-      const intervals = grid.map((x) => meanResponseInterval(primary, x).ci);
-      band = [...grid.map((x, i) => [x, intervals[i][1]] as [number, number]), ...grid.map((x, i) => [x, intervals[i][0]] as [number, number]).reverse()];
-    }
-  }
+  const geometry = scatterGeometry({
+    sampleIds: analysis.sampleIds,
+    comparative: analysis.comparative,
+    candidate: analysis.candidate,
+    fits: analysis.fits as Partial<Record<MethodKey, LineFit>>,
+    methods: fittedMethods(analysis),
+    primary: analysis.primary,
+  });
+  const others = geometry.lines.filter((l) => l.method !== analysis.primary).map((l) => ({ points: l.segment, style: 'secondary' as const }));
+  const primary = geometry.lines.filter((l) => l.method === analysis.primary).map((l) => ({ points: l.segment, style: 'primary' as const }));
   return {
     xLabel: `Comparative procedure (${units})`,
     yLabel: `Candidate procedure (${units})`,
-    xDomain: domain,
-    yDomain: domain,
-    points: xs.map((x, i) => ({ x, y: ys[i], marked: marked.has(i) })),
-    lines,
-    band,
+    xAxis: geometry.axis,
+    yAxis: geometry.axis,
+    points: geometry.points.map(markedOf(analysis)),
+    lines: [{ points: geometry.identity, style: 'identity' }, ...others, ...primary],
+    band: geometry.band?.polygon,
   };
 }
 
 /**
- * Difference plot geometry: y − x against the pair mean, zero line, mean difference and limits of agreement.
+ * Difference (candidate − comparative) against the pair mean, with zero, the mean difference and the limits of agreement.
  *
  * @example
  * differenceSpec(analysis, 'mg/dL').lines.map((l) => l.style); // ['zero', 'mean', 'limit', 'limit']
  */
 export function differenceSpec(analysis: ComparisonAnalysis, units: string): PlotSpec {
-  const ba = analysis.blandAltman.absolute;
-  const xDomain = padded(Math.min(...ba.means), Math.max(...ba.means));
-  const yDomain = padded(Math.min(0, ba.lowerLoA, ...ba.differences), Math.max(0, ba.upperLoA, ...ba.differences), 0.08);
-  const marked = new Set(analysis.esd.outlierIndices);
-  const across = (y: number, style: PlotLine['style']): PlotLine => ({ from: [xDomain[0], y], to: [xDomain[1], y], style });
+  const geometry = differenceGeometry(analysis.blandAltman.absolute, analysis.sampleIds);
   return {
     xLabel: `Mean of the two procedures (${units})`,
     yLabel: `Candidate − comparative (${units})`,
-    xDomain,
-    yDomain,
-    points: ba.means.map((m, i) => ({ x: m, y: ba.differences[i], marked: marked.has(i) })),
-    lines: [across(0, 'zero'), across(ba.meanDifference, 'mean'), across(ba.lowerLoA, 'limit'), across(ba.upperLoA, 'limit')],
+    xAxis: geometry.xAxis,
+    yAxis: geometry.yAxis,
+    points: geometry.points.map(markedOf(analysis)),
+    lines: [
+      { points: geometry.zero, style: 'zero' },
+      { points: geometry.mean, style: 'mean' },
+      { points: geometry.lowerLoA, style: 'limit' },
+      { points: geometry.upperLoA, style: 'limit' },
+    ],
+  };
+}
+
+/**
+ * Residuals of the primary fit against its fitted values, or null when the primary fit is missing.
+ *
+ * @example
+ * residualSpec(analysis, 'mg/dL')?.lines[0].style; // 'zero'
+ */
+export function residualSpec(analysis: ComparisonAnalysis, units: string): PlotSpec | null {
+  const fit = analysis.fits[analysis.primary];
+  if (!fit) return null;
+  const geometry = residualGeometry(analysis.sampleIds, analysis.comparative, analysis.candidate, fit);
+  return {
+    xLabel: `Fitted value, ${methodName(analysis.primary)} (${units})`,
+    yLabel: `Residual (${units})`,
+    xAxis: geometry.xAxis,
+    yAxis: geometry.yAxis,
+    points: geometry.points.map(markedOf(analysis)),
+    lines: [{ points: geometry.zero, style: 'zero' }],
+  };
+}
+
+/**
+ * OLS leverage against studentized residual with Cook's distance contours (0.5 and 1) and the 2p/n threshold.
+ *
+ * @example
+ * leverageSpec(analysis).lines.at(-1)?.style; // 'limit' (the leverage threshold)
+ */
+export function leverageSpec(analysis: ComparisonAnalysis): PlotSpec {
+  const geometry = leverageGeometry(analysis.sampleIds, analysis.diagnostics.residuals, analysis.diagnostics.hat);
+  return {
+    xLabel: 'Leverage (hat value, OLS)',
+    yLabel: 'Studentized residual',
+    xAxis: geometry.xAxis,
+    yAxis: geometry.yAxis,
+    points: geometry.points.map(markedOf(analysis)),
+    lines: [
+      ...geometry.contours.flatMap((c) => [
+        { points: c.upper, style: 'contour' as const },
+        { points: c.lower, style: 'contour' as const },
+      ]),
+      { points: geometry.leverageThreshold.segment, style: 'limit' },
+    ],
   };
 }
 
 /** The legend words of the scatter plot. */
 export function scatterLegend(analysis: ComparisonAnalysis): string {
-  const others = (Object.keys(analysis.fits) as MethodKey[]).filter((m) => m !== analysis.primary).map(methodName);
+  const others = fittedMethods(analysis).filter((m) => m !== analysis.primary).map(methodName);
   return `Dashed grey: identity (y = x). Solid: ${methodName(analysis.primary)} (primary) with its 95 % confidence band. Dotted: ${others.join(', ') || 'no other fits'}. Open circles: outliers of the ESD screen.`;
 }

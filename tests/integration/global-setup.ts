@@ -4,7 +4,7 @@
  * environment variables the app reads, plus TEST_BASE_URL; everything is removed at the end.
  */
 import { spawn } from 'node:child_process';
-import { existsSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, readdirSync, rmSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
@@ -37,7 +37,28 @@ async function waitForHealth(url: string, seconds: number) {
   throw new Error(`The built server did not answer ${url}/api/health within ${seconds} s.`);
 }
 
+function alive(pid: number) {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/** Clusters left by runs that were killed before their teardown (their vitest process is gone). */
+function removeAbandonedStacks() {
+  for (const entry of readdirSync(DATA_DIR)) {
+    const match = entry.match(/^test-integration-(?:mail-)?(\d+)$/);
+    if (!match || alive(Number(match[1]))) continue;
+    if (entry.includes('-mail-')) rmSync(`${DATA_DIR}/${entry}`, { recursive: true, force: true });
+    else removeCluster(`${DATA_DIR}/${entry}`);
+  }
+}
+
 export default async function setup() {
+  mkdirSync(DATA_DIR, { recursive: true });
+  removeAbandonedStacks();
   const entry = SERVER_ENTRY;
   if (!existsSync(entry)) throw new Error('Integration tests need the built server: run `npx astro build` first (npm test does).');
   const dataDir = `${DATA_DIR}/test-integration-${process.pid}`;

@@ -16,6 +16,8 @@ import {
   mergeLoaded,
   pastedBlock,
   rowBody,
+  shownDecimals,
+  withDecimals,
   withTrailingBlank,
   type DraftRow,
 } from './grid/gridModel';
@@ -246,6 +248,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
     ];
   }, [rules.replicates, rules.units]);
 
+  const decimals = useMemo(() => shownDecimals(rows), [rows]);
   const table = useReactTable({ data: rows, columns, getCoreRowModel: getCoreRowModel(), getRowId: (row) => row.key });
 
   return (
@@ -294,14 +297,15 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
                           </span>
                         )}
                         {firstProblem && <div className="text-attention-800">{FIELD_WORDS(firstProblem[0])}: {firstProblem[1]}</div>}
-                        {!firstProblem && row.message && <div className="text-attention-800">{row.message}</div>}
+                        {!firstProblem && row.message && row.status !== 'conflict' && <div className="text-attention-800">{row.message}</div>}
                         {!firstProblem && Object.entries(warnings).map(([f, m]) => <div key={f} className="text-attention-800">⚠ {m}</div>)}
                       </td>
                     );
                   }
                   const colIndex = fields.indexOf(id);
-                  const value = row.cells[id] ?? '';
                   const numeric = id.startsWith('comparative.') || id.startsWith('candidate.');
+                  // Saved results read evenly down a column; what someone is typing is shown as typed.
+                  const value = numeric && row.status === 'saved' ? withDecimals(row.cells[id] ?? '', decimals) : (row.cells[id] ?? '');
                   const error = shownErrors[id];
                   const warning = warnings[id];
                   if (!canEdit) {

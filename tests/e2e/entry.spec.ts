@@ -109,7 +109,7 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   const other = await (await browser.newContext()).newPage();
   await signInAs(other, 'technician');
   await other.goto(studyUrl);
-  await expect(other.getByLabel('E2E-01: comparative replicate 1')).toHaveValue('40');
+  await expect(other.getByLabel('E2E-01: comparative replicate 1')).toHaveValue('40.0');
 
   const changeWithReason = async (tab: Page, value: string, reason: string) => {
     await tab.getByLabel('E2E-01: comparative replicate 1').focus();
@@ -129,5 +129,5 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   await other.getByTestId('entry-grid').screenshot({ path: `${E2E_DIRS.screenshots}/entry-conflict.png` });
   await conflict.getByRole('button', { name: 'Keep the saved values' }).click();
   await expect(conflict).toHaveCount(0);
-  await expect(other.getByLabel('E2E-01: comparative replicate 1')).toHaveValue('41');
+  await expect(other.getByLabel('E2E-01: comparative replicate 1')).toHaveValue('41.0');
 });

@@ -45,6 +45,15 @@ describe('a good CSV', () => {
     expect(rows[1].comparative[0]).toEqual({ value: 10, censored: '<', text: '<10' });
     expect(rows[2].runDate).toBe('2026-11-18');
 
+    // Placed by the comparative mean (G-002's comparative results are censored, so its candidate mean 11.75 places it):
+    // G-001 54.5, G-002 11.75 and G-003 125.6 in the low third (10–173), G-004 510.75 above the interval.
+    const coverage = (await (await technician.get(`${base}/coverage`)).json()).coverage;
+    expect(coverage.parts.map((p: { count: number }) => p.count)).toEqual([3, 0, 0]);
+    expect(coverage.outside).toEqual({ below: 0, above: 1 });
+    expect(coverage.samples).toMatchObject({ entered: 4, paired: 3, replicatesComplete: 4 });
+    expect(coverage.days).toMatchObject({ covered: 2, dates: ['2026-11-17', '2026-11-18'] });
+    expect(coverage.notes).toHaveLength(2);
+
     const [log] = await getDb().select().from(importLogs).where(eq(importLogs.id, summary.importLogId));
     expect(log).toMatchObject({ source: 'csv', importedBy: lab.people.technician.id, rowCount: 4, samplesCreated: 4, studyId });
     const [kept] = await getDb().select().from(attachments).where(and(eq(attachments.id, summary.attachmentId), eq(attachments.laboratoryId, lab.id)));

@@ -162,3 +162,34 @@ export function rowBody(row: DraftRow, rules: ResultRules) {
 export function pastedBlock(text: string): string[][] {
   return text.replace(/\r\n?/g, '\n').replace(/\n$/, '').split('\n').map((line) => line.split('\t'));
 }
+
+const decimalsOf = (text: string) => {
+  const match = text.trim().match(/[.,](\d+)$/);
+  return match ? match[1].length : 0;
+};
+
+/**
+ * The decimals the grid shows results with: the most any saved result has (at most 4), so a column reads evenly.
+ *
+ * @example
+ * shownDecimals([savedRow({ ...row, comparative: [{ value: 40, censored: null, text: '40' }, { value: 40.6, censored: null, text: '40.6' }] }, 2)]); // 1
+ */
+export function shownDecimals(rows: DraftRow[]): number {
+  let most = 0;
+  for (const row of rows) {
+    for (const cell of [...(row.saved?.comparative ?? []), ...(row.saved?.candidate ?? [])]) if (cell) most = Math.max(most, decimalsOf(cell.text));
+  }
+  return Math.min(most, 4);
+}
+
+/**
+ * A saved result as shown: with the grid's decimals ("40" → "40.0" beside "40.6"), censored sign kept.
+ *
+ * @example
+ * withDecimals('<5', 1); // '<5.0'
+ */
+export function withDecimals(text: string, decimals: number): string {
+  const parsed = parseResultValue(text);
+  if (parsed.kind !== 'value' || decimalsOf(text) > decimals) return text;
+  return `${parsed.censored ?? ''}${parsed.value.toFixed(decimals)}`;
+}

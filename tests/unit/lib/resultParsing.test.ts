@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import {
   checkRows,
   checkSampleRow,
+  decodeCsvBytes,
   detectDecimalComma,
   guessMapping,
   missingColumns,
@@ -134,5 +135,17 @@ describe('files', () => {
     expect(detectDecimalComma([['S-1', '12,5']], ';')).toBe(true);
     expect(detectDecimalComma([['S-1', '12.5']], ';')).toBe(false);
     expect(detectDecimalComma([['S-1', '12,5']], ',')).toBe(false);
+  });
+});
+
+describe('decodeCsvBytes', () => {
+  it('drops a UTF-8 byte-order mark and keeps non-ASCII text', () => {
+    const bytes = new Uint8Array([0xef, 0xbb, 0xbf, ...new TextEncoder().encode('Note\nhémolysé\n')]);
+    expect(decodeCsvBytes(bytes)).toEqual({ ok: true, text: 'Note\nhémolysé\n' });
+  });
+  it('refuses UTF-16 and Latin-1 with the line of the first bad byte', () => {
+    expect(decodeCsvBytes(new Uint8Array([0xff, 0xfe, 0x53, 0x00]))).toMatchObject({ ok: false, problem: { line: 1, field: 'file', message: expect.stringContaining('UTF-16') } });
+    const latin1 = new Uint8Array([...new TextEncoder().encode('a\nb\nh'), 0xe9, 0x0a]);
+    expect(decodeCsvBytes(latin1)).toMatchObject({ ok: false, problem: { line: 3, message: expect.stringContaining('Byte 6 (0xE9)') } });
   });
 });

@@ -134,7 +134,12 @@ function Panel({ slug, studyId, canExport, latest, pendingJobId, blocked }: Repo
   );
 }
 
-/** Makes the report with a progress bar, and offers the report and the dossier for download. */
+/**
+ * Makes the report with a progress bar, and offers the report and the dossier for download.
+ *
+ * @example
+ * <ReportPanel client:load slug="eastmere" studyId={study.id} canExport latest={null} pendingJobId={null} blocked={null} />
+ */
 export default function ReportPanel(props: ReportPanelProps) {
   return (
     <QueryRoot>

@@ -107,7 +107,8 @@ export async function dossierStream(laboratoryId: string, studyId: string | unde
   const archive = archiver('zip', { zlib: { level: 9 } });
   const date = new Date(data.run.createdAt);
   for (const file of dossierFiles(data, pdf)) archive.append(file.content, { name: file.name, date });
-  void archive.finalize();
+  // A failure while writing ends the download with an error instead of an unhandled rejection.
+  archive.finalize().catch((error: Error) => archive.destroy(error));
   return {
     stream: Readable.toWeb(archive) as ReadableStream<Uint8Array>,
     fileName: downloadName('dossier', data.study.title, data.run.inputsHash, 'zip'),

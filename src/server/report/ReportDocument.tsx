@@ -92,7 +92,12 @@ function KeyValue({ label, children }: { label: string; children: ReactNode }) {
 const procedureText = (p: ProcedureText) =>
   [p.instrument, p.reagentLot ? `reagent lot ${p.reagentLot}` : null, p.softwareVersion ? `software ${p.softwareVersion}` : null].filter(Boolean).join(', ') || 'not described';
 
-/** What the study's state and verdict say, in words. */
+/**
+ * What the study's state and verdict say, in words.
+ *
+ * @example
+ * studyStatusText({ ...study, state: 'signed', verdict: 'rejected' }); // 'Signed: Rejected'
+ */
 export function studyStatusText(study: ReportData['study']): string {
   if (study.state === 'signed' && study.verdict) return `Signed: ${VERDICT_LABELS[study.verdict].word}`;
   return `${STATE_LABELS[study.state]}: not signed yet`;

@@ -111,7 +111,12 @@ export function leverageSpec(analysis: ComparisonAnalysis): PlotSpec {
   };
 }
 
-/** The legend words of the scatter plot. */
+/**
+ * The legend words of the scatter plot.
+ *
+ * @example
+ * scatterLegend(analysis); // 'Dashed grey: identity (y = x). Solid: Deming (primary) with its 95 % confidence band. …'
+ */
 export function scatterLegend(analysis: ComparisonAnalysis): string {
   const others = fittedMethods(analysis).filter((m) => m !== analysis.primary).map(methodName);
   return `Dashed grey: identity (y = x). Solid: ${methodName(analysis.primary)} (primary) with its 95 % confidence band. Dotted: ${others.join(', ') || 'no other fits'}. Open circles: outliers of the ESD screen.`;

@@ -123,6 +123,9 @@ function Cover({ data }: { data: ReportData }) {
       <View style={{ marginTop: 10 }}>
         <Text style={styles.muted}>State and verdict</Text>
         <Text style={styles.verdict}>{studyStatusText(study)}</Text>
+        {data.signatures.map((s, i) => (
+          <Text key={i}>{`Signed by ${s.printedName} (${ROLE_LABELS[s.role]}), ${utc(s.signedAt)}${s.comment ? `: ${s.comment}` : ''}`}</Text>
+        ))}
       </View>
       <View style={styles.box}>
         <Text style={{ fontWeight: 700 }}>The medical director decides</Text>

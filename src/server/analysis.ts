@@ -5,7 +5,7 @@
  * Bland–Altman, cautions, closed-form CIs) is computed at once; the bootstrap CIs run as a queued job
  * (analysisJobs.ts). Exclusions of samples are audited with their reason and reversible until sign-off.
  */
-import { and, asc, desc, eq, isNull, ne } from 'drizzle-orm';
+import { and, asc, desc, eq, isNull, ne, sql } from 'drizzle-orm';
 import { getDb } from './db';
 import { analysisRuns, auditEvents, exclusions, results, samples, studies, user } from '../db/schema';
 import { recordAudit } from './audit';
@@ -220,7 +220,13 @@ function analyse(inputs: StudyInputs, withBootstrap: boolean): ComparisonAnalysi
   }
 }
 
-/** The bootstrap part of a run, computed by the queued job: the full analysis from the run's own inputs. */
+/**
+ * The bootstrap part of a run, computed by the queued job: the full analysis from the run's own inputs, with the
+ * seeded bootstrap CIs (Efron 1987) of Passing–Bablok and the robust fits.
+ *
+ * @example
+ * const analysis = completeAnalysis((run.results as StoredResults).inputs);
+ */
 export function completeAnalysis(inputs: StudyInputs): ComparisonAnalysis {
   return analyse(inputs, true);
 }
@@ -247,13 +253,19 @@ export async function runAnalysis(actor: { id: string }, laboratoryId: string, s
   const inputs = await studyInputs(laboratoryId, studyId);
   const inputsHash = inputsHashOf(inputs);
   const latest = await latestRun(laboratoryId, inputs.studyId);
-  if (latest && latest.inputsHash === inputsHash) {
-    if (latest.stale) await getDb().update(analysisRuns).set({ stale: false }).where(eq(analysisRuns.id, latest.id));
-    return { run: { ...latest, stale: false }, reused: true };
-  }
+  if (latest && latest.inputsHash === inputsHash) return reuseRun(actor, latest);
   const analysis = analyse(inputs, false);
   const stored: StoredResults = { analysis, inputs, bootstrap: { status: 'pending', jobId: null, resamples: inputs.settings.bootstrap.resamples } };
-  const run = await getDb().transaction(async (tx) => {
+  const outcome = await getDb().transaction(async (tx) => {
+    // One run at a time per study, so that two requests with the same new inputs store one run.
+    await tx.execute(sql`select pg_advisory_xact_lock(hashtext(${`analysis:${inputs.studyId}`}))`);
+    const [newest] = await tx
+      .select()
+      .from(analysisRuns)
+      .where(and(eq(analysisRuns.laboratoryId, laboratoryId), eq(analysisRuns.studyId, inputs.studyId)))
+      .orderBy(desc(analysisRuns.createdAt))
+      .limit(1);
+    if (newest && newest.inputsHash === inputsHash) return { run: newest, created: false };
     await tx
       .update(analysisRuns)
       .set({ stale: true })
@@ -278,17 +290,35 @@ export async function runAnalysis(actor: { id: string }, laboratoryId: string, s
         primary: inputs.settings.primary,
       },
     });
-    return row;
+    return { run: row, created: true };
   });
-  const job = await enqueueJob({ laboratoryId, studyId: inputs.studyId, kind: BOOTSTRAP_JOB_KIND, payload: { runId: run.id }, createdBy: actor.id });
+  if (!outcome.created) return reuseRun(actor, outcome.run);
+  return { run: { ...outcome.run, results: await queueBootstrap(actor, outcome.run, stored) }, reused: false };
+}
+
+/** A run whose inputs are the study's current ones: current again, and its bootstrap queued again if it failed. */
+async function reuseRun(actor: { id: string }, run: AnalysisRunRow): Promise<{ run: AnalysisRunRow; reused: boolean }> {
+  if (run.stale) await getDb().update(analysisRuns).set({ stale: false }).where(eq(analysisRuns.id, run.id));
+  const stored = run.results as StoredResults;
+  if (stored.bootstrap.status !== 'failed') return { run: { ...run, stale: false }, reused: true };
+  const pending: StoredResults = { ...stored, bootstrap: { status: 'pending', jobId: null, resamples: stored.bootstrap.resamples } };
+  await setRunResults(run.id, pending);
+  return { run: { ...run, stale: false, results: await queueBootstrap(actor, run, pending) }, reused: true };
+}
+
+async function queueBootstrap(actor: { id: string }, run: AnalysisRunRow, stored: StoredResults): Promise<StoredResults> {
+  const job = await enqueueJob({ laboratoryId: run.laboratoryId, studyId: run.studyId, kind: BOOTSTRAP_JOB_KIND, payload: { runId: run.id }, createdBy: actor.id });
   const withJob: StoredResults = { ...stored, bootstrap: { ...stored.bootstrap, jobId: job.id } };
   await setRunResults(run.id, withJob, true);
-  return { run: { ...run, results: withJob }, reused: false };
+  return withJob;
 }
 
 /**
  * Replaces a run's stored results. `onlyWhilePending` keeps a finished bootstrap from being overwritten by the
  * job id written just after the run was queued (the job may finish first).
+ *
+ * @example
+ * await setRunResults(run.id, { ...stored, analysis, bootstrap: { ...stored.bootstrap, status: 'done' } });
  */
 export async function setRunResults(runId: string, next: StoredResults, onlyWhilePending = false): Promise<void> {
   const db = getDb();
@@ -304,7 +334,12 @@ export async function setRunResults(runId: string, next: StoredResults, onlyWhil
   });
 }
 
-/** A run by id, for the bootstrap job. */
+/**
+ * A run by id, for the bootstrap job (which checks the laboratory itself).
+ *
+ * @example
+ * const run = await getRun(payload.runId);
+ */
 export async function getRun(runId: string): Promise<AnalysisRunRow | undefined> {
   const [row] = await getDb().select().from(analysisRuns).where(eq(analysisRuns.id, runId));
   return row;

@@ -223,8 +223,15 @@ describe('analysis runs', () => {
     // Back to the first run's inputs: that run is current again.
     const back = await (await s.scientist.get(`${s.api}/analysis`)).json();
     expect(back.current).toBe(false);
-    const reran = await (await s.scientist.post(`${s.api}/analysis`)).json();
+    // Two requests at once with the new inputs store one run.
+    const both = await Promise.all([s.scientist.post(`${s.api}/analysis`), s.scientist.post(`${s.api}/analysis`)]);
+    expect(both.map((r) => r.status).sort()).toEqual([200, 201]);
+    const [reran, twin] = await Promise.all(both.map((r) => r.json()));
+    expect(reran.run.id).toBe(twin.run.id);
     expect(reran.run.results.analysis.n).toBe(60);
+    const runs = await getDb().select().from(analysisRuns).where(eq(analysisRuns.studyId, s.studyId));
+    expect(runs).toHaveLength(3);
+    expect(runs.filter((r) => !r.stale).map((r) => r.id)).toEqual([reran.run.id]);
   });
 
   it('refuses exclusions once the study is in review', async () => {

@@ -147,7 +147,12 @@ function Workspace({ slug, studyId, canRun, canExclude, standingCaution }: Props
   );
 }
 
-/** The analysis workspace of a study (one island, so that hovering or selecting a sample reaches every plot). */
+/**
+ * The analysis workspace of a study (one island, so that hovering or selecting a sample reaches every plot).
+ *
+ * @example
+ * <AnalysisWorkspace client:only="react" slug={lab.slug} studyId={study.id} canRun canExclude standingCaution={STANDING_CAUTION} />
+ */
 export default function AnalysisWorkspace(props: Props) {
   return (
     <QueryRoot>

@@ -4,6 +4,9 @@ import type { StoredResults } from './types';
 /**
  * The cautions panel at the top of the workspace: the standing caution that the medical director decides, the
  * engine's data-driven cautions naming their samples, and the samples excluded or left out of this run.
+ *
+ * @example
+ * <CautionsPanel results={results} standingCaution={STANDING_CAUTION} onSelect={setSelected} />
  */
 export function CautionsPanel({ results, standingCaution, onSelect }: { results: StoredResults | null; standingCaution: string; onSelect: (code: string) => void }) {
   const cautions: Caution[] = results?.analysis.cautions ?? [];

@@ -1,7 +1,6 @@
 import { ResponsiveScatterPlot, type ScatterPlotLayerProps } from '@nivo/scatterplot';
 import type { Axis, Point } from '../../lib/plotGeometry';
 import { tickLabel } from './format';
-import type { ReactNode } from 'react';
 
 /** A sample drawn in a plot: hollow when it is heavily down-weighted, so the mark does not rely on colour. */
 export interface PlotPoint extends Point {
@@ -16,7 +15,6 @@ export interface PlotLine {
   stroke: string;
   dash?: string;
   width?: number;
-  label?: string;
 }
 
 export interface PlotArea {
@@ -46,7 +44,6 @@ interface PlotProps {
   onHover: (id: string | null) => void;
   onSelect: (id: string) => void;
   height?: number;
-  children?: ReactNode;
 }
 
 const INK = '#1f2a2a';
@@ -54,6 +51,9 @@ const INK = '#1f2a2a';
 /**
  * One scatter plot of the workspace (nivo) with custom layers for areas, lines and the samples; the selected and
  * the hovered sample are ringed and labelled in every plot.
+ *
+ * @example
+ * <Plot label="Scatter plot" xLabel="x" yLabel="y" xAxis={axis} yAxis={axis} points={points} {...highlight} />
  */
 export function Plot({ label, xLabel, yLabel, xAxis, yAxis, points, lines = [], areas = [], selected, hovered, onHover, onSelect, height = 290 }: PlotProps) {
   const data = [{ id: 'samples', data: points.map((p) => ({ x: p.x, y: p.y, id: p.id })) }];
@@ -82,16 +82,6 @@ export function Plot({ label, xLabel, yLabel, xAxis, yAxis, points, lines = [], 
           strokeDasharray={line.dash}
         />
       ))}
-      {lines
-        .filter((line) => line.label)
-        .map((line) => {
-          const end = line.points[line.points.length - 1];
-          return (
-            <text key={`${line.key}-label`} x={xScale(end.x) - 4} y={yScale(end.y) - 4} textAnchor="end" fontSize={10} fill={line.stroke}>
-              {line.label}
-            </text>
-          );
-        })}
     </g>
   );
   const PointsLayer = ({ xScale, yScale }: ScatterPlotLayerProps<Datum>) => {

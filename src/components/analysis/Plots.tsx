@@ -91,7 +91,12 @@ function Legend({ items }: { items: { key: string; label: string; stroke: string
   );
 }
 
-/** The five plots of the workspace, each with its data table. */
+/**
+ * The five plots of the workspace, each with its data table.
+ *
+ * @example
+ * <Plots results={view.run.results} units="mg/dL" highlight={highlight} />
+ */
 export function Plots({ results, units, highlight }: { results: StoredResults; units: string; highlight: Highlight }) {
   const analysis: ComparisonAnalysis = results.analysis;
   const { sampleIds, comparative, candidate, fits, primary } = analysis;

@@ -45,6 +45,9 @@ function fitRows(analysis: ComparisonAnalysis, index: number): FitRow[] {
 /**
  * One sample in detail: its values (all replicates), specimen and diagnostic flags, its numbers in each fit,
  * its history, and — for lab scientists — exclude or include with a mandatory reason.
+ *
+ * @example
+ * <SampleDetail slug="eastmere" studyId={id} code="EM-0042" results={results} canExclude locked={false} onChanged={rerun} onClose={close} />
  */
 export function SampleDetail({
   slug,

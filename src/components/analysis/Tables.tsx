@@ -11,7 +11,12 @@ function PrimaryMark() {
   return <span className="ml-1 rounded bg-brand-50 px-1 text-xs text-brand-800">★ primary</span>;
 }
 
-/** Every estimator side by side: intercept and slope with their CIs, scale, iterations, convergence and start. */
+/**
+ * Every estimator side by side: intercept and slope with their CIs, scale, iterations, convergence and start.
+ *
+ * @example
+ * <EstimatorTable analysis={results.analysis} />
+ */
 export function EstimatorTable({ analysis }: { analysis: ComparisonAnalysis }) {
   // Stored JSON does not keep key order, so the engine's method list gives the order.
   const methods = analysis.methods.filter((m) => analysis.fits[m]);
@@ -91,6 +96,9 @@ function Verdict({ entry, pending }: { entry: FitBias | undefined; pending: bool
 /**
  * Bias at each decision level for every estimator (absolute and percent, CI, allowable limit, verdict), the
  * protocol's primary estimator marked, and a note where the estimators disagree about the verdict.
+ *
+ * @example
+ * <DecisionTable results={results} />
  */
 export function DecisionTable({ results }: { results: StoredResults }) {
   const { analysis, inputs, bootstrap } = results;

@@ -34,6 +34,13 @@ test('a lab scientist runs the analysis of the demo study, reads the leverage ca
   await expect(verdicts.locator('[data-verdict]').first()).toBeVisible();
   await expect(verdicts).toContainText('★ primary');
   const before = await verdicts.innerText();
+  // The difference plot switches to percent differences, and its data table lists every sample.
+  const differences = page.getByTestId('plot-difference');
+  await differences.getByLabel('Percent').check();
+  await expect(differences).toContainText('Difference (% of mean)');
+  await differences.getByText('Data table').click();
+  await expect(differences.locator('tbody tr')).toHaveCount(60);
+  await differences.getByLabel(/Absolute/).check();
   await page.screenshot({ path: `${E2E_DIRS.screenshots}/analysis-workspace.png`, fullPage: true });
 
   // Selecting the discordant sample highlights it in every plot and opens its detail.

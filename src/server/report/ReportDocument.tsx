@@ -349,6 +349,36 @@ function Signatures({ data }: { data: ReportData }) {
   );
 }
 
+function PairedData({ data }: { data: ReportData }) {
+  const analysis = data.run.results.analysis;
+  const ba = analysis.blandAltman.absolute;
+  const { hat, cooksDistance } = analysis.diagnostics;
+  const outliers = new Set(analysis.esd.outlierSampleIds);
+  const dv = decimalsFor([...analysis.comparative, ...analysis.candidate], 4);
+  const dd = decimalsFor(ba.differences, 3);
+  const rows = analysis.sampleIds.map((id, i) => ({ id, i }));
+  return (
+    <View>
+      <Text style={styles.h2} minPresenceAhead={60}>Analysed pairs</Text>
+      <Text style={[styles.small, styles.muted, { marginBottom: 3 }]}>
+        {`The numbers behind the plots, in the order analysed (replicates averaged per procedure). Leverage and Cook's distance are those of the OLS fit. Every result as entered is in results.csv of the dossier.`}
+      </Text>
+      <Table
+        columns={[
+          { head: 'Sample', width: 20, text: (r) => r.id },
+          { head: 'Comparative', width: 13, numeric: true, text: (r) => fixed(analysis.comparative[r.i], dv) },
+          { head: 'Candidate', width: 13, numeric: true, text: (r) => fixed(analysis.candidate[r.i], dv) },
+          { head: 'Difference', width: 13, numeric: true, text: (r) => fixed(ba.differences[r.i], dd) },
+          { head: 'Leverage', width: 11, numeric: true, text: (r) => fixed(hat[r.i], 3) },
+          { head: "Cook's D", width: 11, numeric: true, text: (r) => (cooksDistance[r.i] === null ? '—' : fixed(cooksDistance[r.i] as number, 3)) },
+          { head: 'Note', width: 19, text: (r) => (outliers.has(r.id) ? 'ESD outlier' : '') },
+        ]}
+        rows={rows}
+      />
+    </View>
+  );
+}
+
 function AuditSummary({ data }: { data: ReportData }) {
   const { audit } = data;
   return (
@@ -406,6 +436,10 @@ export function ReportDocument({ data }: { data: ReportData }) {
         <Exclusions data={data} />
         <Signatures data={data} />
         <AuditSummary data={data} />
+        <Footer data={data} />
+      </Page>
+      <Page size="A4" style={styles.page}>
+        <PairedData data={data} />
         <Footer data={data} />
       </Page>
     </Document>

@@ -92,7 +92,9 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
         const result = await api<{ version: { version: number; updatedAt: string } }>('PUT', base, { settings: JSON.parse(json), version: versionRef.current });
         versionRef.current = result.version.version;
         lastSavedJson.current = json;
-        setSaveState({ kind: 'saved', at: new Date(result.version.updatedAt) });
+        // Typing during the save leaves changes for the next one.
+        const changedMeanwhile = JSON.stringify(getValues()) !== json;
+        setSaveState(changedMeanwhile ? { kind: 'pending' } : { kind: 'saved', at: new Date(result.version.updatedAt) });
         return true;
       } catch (error) {
         if (error instanceof ApiError && error.status === 409) {

@@ -55,8 +55,13 @@ test('a lab scientist builds a protocol from a template by keyboard and approves
   await retype(page, '60');
   await expect(countWarning).toHaveCount(0);
 
-  // The autosave reports its time.
-  await expect(page.getByTestId('save-status')).toHaveText(/Saved at \d\d:\d\d/);
+  // The autosave waits for a pause in typing, then reports its time; the server has the draft.
+  const saveStatus = page.getByTestId('save-status');
+  await expect(saveStatus).toHaveText('✎ Unsaved changes');
+  await expect(saveStatus).toHaveText(/Saved at \d\d:\d\d/);
+  const draftApi = new URL(protocolUrl).pathname.replace('/labs/', '/api/labs/');
+  const stored = (await (await page.request.get(draftApi)).json()) as { protocol: { versions: { settings: { candidateProcedure: string; samplePlan: { count: number } } }[] } };
+  expect(stored.protocol.versions[0].settings).toMatchObject({ candidateProcedure: expect.stringContaining('"Wren"'), samplePlan: { count: 60 } });
 
   // A cleared rationale stops approval: the error sits beside the field and focus moves there; typing fixes it.
   await page.getByLabel('Why this estimator').focus();

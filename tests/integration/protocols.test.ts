@@ -116,13 +116,13 @@ describe('protocol lifecycle', () => {
 });
 
 describe('approval refuses bad protocols with field-level errors', () => {
-  const cases: [string, (s: ProtocolSettings) => void, string][] = [
-    ['allowable bias of 0', (s) => void (s.decisionLevels[0].allowableBias.absolute = 0), 'decisionLevels.0.allowableBias.absolute'],
-    ['negative percent allowable bias', (s) => void (s.decisionLevels[1].allowableBias.percent = -5), 'decisionLevels.1.allowableBias.percent'],
-    ['decision level above the measuring interval', (s) => void (s.decisionLevels[2].value = s.analyte.measuringInterval.high + 100), 'decisionLevels.2.value'],
-    ['decision level repeated', (s) => void (s.decisionLevels[1].value = s.decisionLevels[0].value), 'decisionLevels.1.value'],
+  const cases: [string, string, (s: ProtocolSettings) => void][] = [
+    ['allowable bias of 0', 'decisionLevels.0.allowableBias.absolute', (s) => void (s.decisionLevels[0].allowableBias.absolute = 0)],
+    ['negative percent allowable bias', 'decisionLevels.1.allowableBias.percent', (s) => void (s.decisionLevels[1].allowableBias.percent = -5)],
+    ['decision level above the measuring interval', 'decisionLevels.2.value', (s) => void (s.decisionLevels[2].value = s.analyte.measuringInterval.high + 100)],
+    ['decision level repeated', 'decisionLevels.1.value', (s) => void (s.decisionLevels[1].value = s.decisionLevels[0].value)],
   ];
-  it.each(cases)('%s → 422 naming %s, and nothing approved', async (_label, spoil, field) => {
+  it.each(cases)('%s → 422 naming %s, and nothing approved', async (_label, field, spoil) => {
     const lab = await createLabWithMembers('badproto');
     const scientist = await signIn(lab.people.lab_scientist.email);
     const { draft, base } = await glucoseDraft(scientist, lab);

@@ -4,6 +4,7 @@
  * block copied from a spreadsheet (with decimal commas and one typo), fixes the typo, and imports a CSV file whose
  * columns need mapping.
  */
+import AxeBuilder from '@axe-core/playwright';
 import { expect, test, type Page } from '@playwright/test';
 import { DEMO_LAB, signInAs } from './helpers';
 import { E2E_DIRS } from './stack';
@@ -101,6 +102,10 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   await expect(rows.filter({ has: page.getByText('✔ Saved') })).toHaveCount(18);
   await expect(page.getByLabel('E2E-CSV-2: comparative replicate 1')).toHaveValue('245.1');
   await expect(page.getByTestId('coverage-samples')).toContainText('18');
+
+  // The study page with its grid, coverage and import has no serious accessibility violations (axe-core, WCAG 2.1 AA).
+  const axe = await new AxeBuilder({ page }).withTags(['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa']).analyze();
+  expect(axe.violations.filter((v) => v.impact === 'serious' || v.impact === 'critical').map((v) => `${v.id}: ${v.nodes.map((n) => n.target.join(' ')).slice(0, 3).join(', ')}`)).toEqual([]);
 
   await grid.screenshot({ path: `${E2E_DIRS.screenshots}/entry-grid.png` });
   await page.screenshot({ path: `${E2E_DIRS.screenshots}/entry-study.png`, fullPage: true });

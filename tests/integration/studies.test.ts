@@ -66,6 +66,46 @@ describe('opening a study', () => {
   });
 });
 
+describe('study pages', () => {
+  it('the form opens a study and redirects to it; bad fields are shown beside the form; technicians are refused', async () => {
+    const lab = await createLabWithMembers('pages');
+    const { version } = await approvedGlucoseVersion(lab);
+    const scientist = await signIn(lab.people.lab_scientist.email);
+    const form = (fields: Record<string, string>) =>
+      scientist.request('POST', `/labs/${lab.slug}/studies/new`, new URLSearchParams(fields).toString(), { 'content-type': 'application/x-www-form-urlencoded' });
+    const fields = {
+      title: 'From the form',
+      protocolVersionId: version.id,
+      'candidate.instrument': PROCEDURES.candidate.instrument,
+      'candidate.reagentLot': PROCEDURES.candidate.reagentLot,
+      'candidate.softwareVersion': PROCEDURES.candidate.softwareVersion,
+      'comparative.instrument': PROCEDURES.comparative.instrument,
+      'comparative.reagentLot': '',
+      'comparative.softwareVersion': PROCEDURES.comparative.softwareVersion,
+      technicianIds: lab.people.technician.id,
+    };
+    const refused = await form(fields);
+    expect(refused.status).toBe(200);
+    expect(await refused.text()).toContain('Give the reagent lot.');
+    const opened = await form({ ...fields, 'comparative.reagentLot': 'LOT-R9' });
+    expect(opened.status).toBe(303);
+    const location = opened.headers.get('location') ?? '';
+    expect(location).toMatch(new RegExp(`/labs/${lab.slug}/studies/[0-9a-f-]{36}$`));
+    const page = await (await scientist.get(location)).text();
+    expect(page).toContain('From the form');
+    expect(page).toContain('Start collecting results');
+    const list = await (await scientist.get(`/labs/${lab.slug}/studies`)).text();
+    expect(list).toContain('From the form');
+
+    const technician = await signIn(lab.people.technician.email);
+    const forbidden = await technician.get(`/labs/${lab.slug}/studies/new`);
+    expect(await forbidden.text()).not.toContain('Open the study');
+    const other = await createLabWithMembers('pages-other');
+    const outsider = await signIn(other.people.lab_scientist.email);
+    expect((await outsider.get(location.replace(lab.slug, other.slug))).status).toBe(404);
+  });
+});
+
 describe('entry grid rows', () => {
   it('only technicians save rows; values outside the interval are warned and saved; censored values are kept', async () => {
     const { lab, base, scientist, technician } = await collectingStudy('grid');

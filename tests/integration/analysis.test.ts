@@ -160,6 +160,9 @@ describe('analysis runs', () => {
     for (const role of READERS) {
       const client = await signIn(s.lab.people[role].email);
       expect((await client.get(`${s.api}/analysis`)).status, role).toBe(200);
+      const page = await client.get(`/labs/${s.lab.slug}/studies/${s.studyId}/analysis`);
+      expect(page.status, role).toBe(200);
+      expect(await page.text(), role).toContain('read only');
       expect((await client.get(`${s.api}/analysis/samples/${sampleId}`)).status, role).toBe(200);
       expect((await client.post(`${s.api}/analysis`)).status, role).toBe(403);
       expect((await client.post(`${s.api}/samples/${sampleId}/exclusion`, { reason: 'mine' })).status, role).toBe(403);

@@ -138,6 +138,9 @@ describe('who may make and read the report', () => {
 
   it('says "not signed yet" before sign-off; quality staff make it, everyone in the lab downloads it', async () => {
     const quality = await signIn(study.lab.people.quality.email);
+    const none = await quality.get(`${base}/report`);
+    expect(none.status).toBe(404);
+    expect((await none.json()).detail).toBe('No report has been made for this study yet.');
     const queued = await quality.post(`${base}/report`);
     expect(queued.status).toBe(202);
     const { job } = await queued.json();

@@ -1,5 +1,5 @@
 import { endpoint, json, requireLab } from '../../../../../../server/endpoint';
-import { notFound } from '../../../../../../server/problem';
+import { Problem } from '../../../../../../server/problem';
 import { downloadName, latestReport, requestReport } from '../../../../../../server/reportJobs';
 
 /** Queues the study's report PDF; the answer names the job to poll. */
@@ -13,7 +13,7 @@ export const POST = endpoint(async ({ locals, params }) => {
 export const GET = endpoint(async ({ locals, params }) => {
   const { lab } = requireLab(locals, 'read');
   const report = await latestReport(lab.id, params.id);
-  if (!report) throw notFound('stored report for this study');
+  if (!report) throw new Problem(404, 'Not found', 'No report has been made for this study yet.');
   return new Response(new Uint8Array(report.content), {
     headers: {
       'content-type': 'application/pdf',

@@ -6,11 +6,12 @@
  * stores all rows, the original file as an attachment and an import log in one transaction — or nothing.
  */
 import { createHash } from 'node:crypto';
+import { and, desc, eq } from 'drizzle-orm';
 import Papa from 'papaparse';
 import { getDb } from './db';
-import { attachments } from '../db/schema';
-import { Problem } from './problem';
-import { lockCollectingStudy } from './studies';
+import { attachments, importLogs, user } from '../db/schema';
+import { notFound, Problem } from './problem';
+import { isUuid, lockCollectingStudy } from './studies';
 import { logImport, refusal, storeRows, type Writer } from './results';
 import { checkRows, CSV_DELIMITERS, decodeCsvBytes, detectDecimalComma, missingColumns, tableToRows, type ColumnMapping, type RowMessage } from '../lib/resultParsing';
 import { IMPORT_LIMITS, type ImportSettings } from '../lib/resultSchemas';
@@ -114,4 +115,50 @@ export async function importCsv(writer: Writer & { userId: string }, laboratoryI
     });
     return { importLogId: log.id, attachmentId: attachment.id, rows: checked.rows.length, ...outcome, warnings: checked.warnings, delimiter };
   });
+}
+
+/**
+ * The committed imports of a study (CSV files and API uploads), newest first, with who or which token and the file name.
+ *
+ * @example
+ * const logs = await listImports(lab.id, study.id); // [{ id, source: 'csv', fileName: 'day1.csv', rowCount: 40, importedByName: 'Luis Pereira', … }]
+ */
+export async function listImports(laboratoryId: string, studyId: string) {
+  return getDb()
+    .select({
+      id: importLogs.id,
+      source: importLogs.source,
+      rowCount: importLogs.rowCount,
+      samplesCreated: importLogs.samplesCreated,
+      samplesUpdated: importLogs.samplesUpdated,
+      resultsWritten: importLogs.resultsWritten,
+      warnings: importLogs.warnings,
+      tokenName: importLogs.tokenName,
+      importedByName: user.name,
+      createdAt: importLogs.createdAt,
+      attachmentId: importLogs.attachmentId,
+      fileName: attachments.fileName,
+    })
+    .from(importLogs)
+    .leftJoin(user, eq(user.id, importLogs.importedBy))
+    .leftJoin(attachments, eq(attachments.id, importLogs.attachmentId))
+    .where(and(eq(importLogs.laboratoryId, laboratoryId), eq(importLogs.studyId, studyId)))
+    .orderBy(desc(importLogs.createdAt));
+}
+
+/**
+ * The original file of one CSV import, exactly as uploaded (404 for another lab's or study's import, or an API upload).
+ *
+ * @example
+ * const file = await importedFile(lab.id, params.id, params.logId); // { fileName, mediaType, content, sha256 }
+ */
+export async function importedFile(laboratoryId: string, studyId: string | undefined, logId: string | undefined) {
+  if (!isUuid(studyId) || !isUuid(logId)) throw notFound('import');
+  const [row] = await getDb()
+    .select({ fileName: attachments.fileName, mediaType: attachments.mediaType, content: attachments.content, sha256: attachments.sha256 })
+    .from(importLogs)
+    .innerJoin(attachments, eq(attachments.id, importLogs.attachmentId))
+    .where(and(eq(importLogs.id, logId), eq(importLogs.studyId, studyId), eq(importLogs.laboratoryId, laboratoryId), eq(attachments.laboratoryId, laboratoryId)));
+  if (!row) throw notFound('import with a file');
+  return row;
 }

@@ -59,6 +59,11 @@ describe('a good CSV', () => {
     const [kept] = await getDb().select().from(attachments).where(and(eq(attachments.id, summary.attachmentId), eq(attachments.laboratoryId, lab.id)));
     expect(Buffer.compare(kept.content, file)).toBe(0);
     expect(kept.fileName).toBe('day1.csv');
+    const download = await technician.get(`${base}/imports/${summary.importLogId}`);
+    expect(download.status).toBe(200);
+    expect(Buffer.compare(Buffer.from(await download.arrayBuffer()), file)).toBe(0);
+    const page = await (await technician.get(`/labs/${lab.slug}/studies/${studyId}`)).text();
+    expect(page).toContain('day1.csv');
   });
 
   it('refuses codes the study already has unless "update existing" is chosen with a reason', async () => {

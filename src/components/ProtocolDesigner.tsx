@@ -25,6 +25,7 @@ import { StatsInputError } from '../lib/stats/errors';
 import { errorAt, FieldShell, fieldId, flattenErrors, inputClass, numberClass, PercentInput } from './protocol/formParts';
 import { ESTIMATOR_LABELS, formatNumber, PSI_LABELS } from './protocol/labels';
 import { SampleSizeHelper } from './protocol/SampleSizeHelper';
+import { useHydrated } from './protocol/useHydrated';
 
 interface Props {
   slug: string;
@@ -59,6 +60,7 @@ const buttonClass = 'rounded border border-neutral-300 bg-white px-2.5 py-1 text
 
 export default function ProtocolDesigner({ slug, protocolId, versionId, versionNumber, settings, rowVersion, updatedAt, canApprove }: Props) {
   const base = `/api/labs/${slug}/protocols/${protocolId}/versions/${versionId}`;
+  const hydrated = useHydrated();
   const defaultValues = useMemo(() => fromStored(settings), [settings]);
   const form = useForm<Values, unknown, ProtocolSettings>({ resolver: zodResolver(protocolSettingsSchema), defaultValues, mode: 'onTouched' });
   const { register, control, formState, watch, getValues, setValue, setError, handleSubmit } = form;
@@ -216,7 +218,7 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
           : `✖ ${saveState.message}`;
 
   return (
-    <form onSubmit={(event) => event.preventDefault()} noValidate className="grid gap-4" data-testid="protocol-designer" aria-label={`Protocol version ${versionNumber}, draft`}>
+    <form onSubmit={(event) => event.preventDefault()} noValidate className="grid gap-4" data-testid="protocol-designer" data-ready={hydrated} aria-label={`Protocol version ${versionNumber}, draft`}>
       <div className="sticky top-0 z-10 flex flex-wrap items-center gap-3 border-b border-neutral-200 bg-neutral-50/95 py-2">
         <p role="status" aria-live="polite" className="text-sm text-neutral-700" data-testid="save-status">
           {status}
@@ -225,7 +227,7 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
           <button
             type="button"
             onClick={() => void approve()}
-            disabled={approving || !!conflict}
+            disabled={approving || !!conflict || !hydrated}
             className="ml-auto rounded bg-brand-700 px-4 py-1.5 font-medium text-white hover:bg-brand-800 focus:outline-2 focus:outline-offset-2 focus:outline-brand-600 disabled:opacity-60"
           >
             {approving ? 'Approving…' : `Approve version ${versionNumber}`}

@@ -22,6 +22,8 @@ test('a lab scientist builds a protocol from a template by keyboard and approves
   // Choose the potassium template and start the draft: focus, type-ahead in the list, Tab, Enter.
   await page.goto(`${labPath}/protocols/new`);
   const startFrom = page.getByLabel('Start from');
+  // The button is enabled once the island has hydrated.
+  await expect(page.getByRole('button', { name: 'Start the draft' })).toBeEnabled();
   await startFrom.focus();
   await page.keyboard.type('Potassium');
   await expect(startFrom).toHaveValue('potassium');
@@ -31,8 +33,7 @@ test('a lab scientist builds a protocol from a template by keyboard and approves
   await expect(page).toHaveURL(new RegExp(`${labPath}/protocols/[0-9a-f-]{36}$`));
   const protocolUrl = page.url();
 
-  const designer = page.getByTestId('protocol-designer');
-  await expect(designer).toBeVisible();
+  await expect(page.getByTestId('protocol-designer')).toHaveAttribute('data-ready', 'true');
   await expect(page.getByLabel('Analyte', { exact: true })).toHaveValue('Potassium');
 
   // Title, then Tab through the analyte fields to the procedures.
@@ -98,10 +99,29 @@ test('a lab scientist builds a protocol from a template by keyboard and approves
   // Editing the approved protocol starts version 2 as a draft.
   await page.goto(protocolUrl);
   const edit = page.getByRole('button', { name: 'Edit: start version 2 as a draft' });
+  await expect(edit).toBeEnabled();
   await edit.focus();
   await page.keyboard.press('Enter');
-  await expect(page.getByRole('button', { name: 'Approve version 2' })).toBeVisible();
+  await expect(page.getByRole('button', { name: 'Approve version 2' })).toBeEnabled();
   await expect(page.getByLabel('Protocol title')).toHaveValue('Serum potassium: second bench analyser');
+
+  // A save from another window makes this page's draft stale: the 409 is explained, and a reload shows the other save.
+  const protocolApi = new URL(protocolUrl).pathname.replace('/labs/', '/api/labs/');
+  type Version = { id: string; versionNumber: number; version: number; settings: Record<string, unknown> };
+  const current = ((await (await page.request.get(protocolApi)).json()) as { protocol: { versions: Version[] } }).protocol.versions[0];
+  expect(current.versionNumber).toBe(2);
+  const elsewhere = await page.request.put(`${protocolApi}/versions/${current.id}`, {
+    data: { settings: { ...current.settings, title: 'Retitled in another window' }, version: current.version },
+  });
+  expect(elsewhere.status()).toBe(200);
+  await page.getByLabel('Protocol title').focus();
+  await page.keyboard.type(' (second version)');
+  await expect(page.getByTestId('save-conflict')).toContainText('saved by someone else');
+  await expect(page.getByTestId('save-status')).toContainText('Not saved');
+  await page.getByRole('button', { name: 'Reload the current draft' }).focus();
+  await page.keyboard.press('Enter');
+  await expect(page.getByTestId('protocol-designer')).toHaveAttribute('data-ready', 'true');
+  await expect(page.getByLabel('Protocol title')).toHaveValue('Retitled in another window');
 
   // The technician reads the approved version without any editing controls, and the API refuses edits.
   const technicianContext = await browser.newContext();

@@ -1,7 +1,8 @@
 /** Starts a protocol draft from an analyte template or blank, then opens it in the designer. */
-import { useState, type FormEvent } from 'react';
+import { useEffect, useRef, useState, type FormEvent } from 'react';
 import { api, ApiError } from '../../lib/apiClient';
 import { FormMessage, SubmitButton } from '../ui/Field';
+import { useHydrated } from './useHydrated';
 
 interface TemplateChoice {
   id: string;
@@ -13,7 +14,11 @@ interface TemplateChoice {
 }
 
 export default function NewProtocolForm({ slug, templates }: { slug: string; templates: TemplateChoice[] }) {
+  const hydrated = useHydrated();
+  const select = useRef<HTMLSelectElement>(null);
   const [choice, setChoice] = useState(templates[0]?.id ?? '');
+  // A choice made before hydration is in the DOM only; take it from there.
+  useEffect(() => setChoice(select.current?.value ?? ''), []);
   const [busy, setBusy] = useState(false);
   const [problem, setProblem] = useState<string | null>(null);
   const disciplines = [...new Set(templates.map((t) => t.discipline))];
@@ -23,8 +28,9 @@ export default function NewProtocolForm({ slug, templates }: { slug: string; tem
     event.preventDefault();
     setBusy(true);
     setProblem(null);
+    const templateId = String(new FormData(event.currentTarget).get('templateId') ?? '');
     try {
-      const created = await api<{ protocol: { id: string } }>('POST', `/api/labs/${slug}/protocols`, choice ? { templateId: choice } : {});
+      const created = await api<{ protocol: { id: string } }>('POST', `/api/labs/${slug}/protocols`, templateId ? { templateId } : {});
       window.location.assign(`/labs/${slug}/protocols/${created.protocol.id}`);
     } catch (error) {
       setProblem(error instanceof ApiError ? error.problem.detail : 'The server could not be reached; no protocol was started.');
@@ -39,7 +45,9 @@ export default function NewProtocolForm({ slug, templates }: { slug: string; tem
         <label htmlFor="new-protocol-template" className="text-sm font-medium">Start from</label>
         <select
           id="new-protocol-template"
-          value={choice}
+          name="templateId"
+          ref={select}
+          defaultValue={choice}
           onChange={(e) => setChoice(e.currentTarget.value)}
           className="rounded border border-neutral-300 bg-white px-2 py-1.5"
           aria-describedby="new-protocol-summary"
@@ -64,7 +72,7 @@ export default function NewProtocolForm({ slug, templates }: { slug: string; tem
         </p>
       </div>
       <div>
-        <SubmitButton busy={busy}>Start the draft</SubmitButton>
+        <SubmitButton busy={busy || !hydrated}>Start the draft</SubmitButton>
       </div>
     </form>
   );

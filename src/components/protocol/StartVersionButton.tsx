@@ -2,8 +2,10 @@
 import { useState } from 'react';
 import { api, ApiError } from '../../lib/apiClient';
 import { FormMessage } from '../ui/Field';
+import { useHydrated } from './useHydrated';
 
 export default function StartVersionButton({ slug, protocolId, nextNumber }: { slug: string; protocolId: string; nextNumber: number }) {
+  const hydrated = useHydrated();
   const [busy, setBusy] = useState(false);
   const [problem, setProblem] = useState<string | null>(null);
   async function start() {
@@ -22,7 +24,7 @@ export default function StartVersionButton({ slug, protocolId, nextNumber }: { s
         <button
           type="button"
           onClick={() => void start()}
-          disabled={busy}
+          disabled={busy || !hydrated}
           className="rounded bg-brand-700 px-3 py-1.5 text-sm font-medium text-white hover:bg-brand-800 focus:outline-2 focus:outline-offset-2 focus:outline-brand-600 disabled:opacity-60"
         >
           {busy ? 'Starting…' : `Edit: start version ${nextNumber} as a draft`}

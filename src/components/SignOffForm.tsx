@@ -1,5 +1,5 @@
 import { useMutation } from '@tanstack/react-query';
-import { useState, type FormEvent } from 'react';
+import { useEffect, useState, type FormEvent } from 'react';
 import { api, ApiError } from '../lib/apiClient';
 import { VERDICT_LABELS } from '../lib/labels';
 import type { Verdict } from '../db/schema';
@@ -29,6 +29,9 @@ function Form({ slug, studyId, version, analysisRunId, meaning, signerName }: Si
   const [verdict, setVerdict] = useState<Verdict | null>(null);
   const [errors, setErrors] = useState<Record<string, string>>({});
   const [message, setMessage] = useState<{ tone: 'error' | 'info'; text: string } | null>(null);
+  // Until the island runs, the button stays disabled, so a click never submits the password as a plain form.
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
 
   const sign = useMutation({
     mutationFn: (body: { verdict: Verdict; comment: string; password: string }) =>
@@ -66,7 +69,7 @@ function Form({ slug, studyId, version, analysisRunId, meaning, signerName }: Si
 
   const commentLabel = verdict ? COMMENT_LABELS[verdict] : COMMENT_LABELS.accepted;
   return (
-    <form onSubmit={submit} className="grid max-w-3xl gap-4 rounded border border-neutral-200 bg-white p-4" noValidate data-testid="sign-off-form">
+    <form method="post" onSubmit={submit} className="grid max-w-3xl gap-4 rounded border border-neutral-200 bg-white p-4" noValidate data-testid="sign-off-form">
       <h2 className="text-lg font-semibold text-brand-900">Your verdict</h2>
       <fieldset className="grid gap-2" aria-describedby={errors.verdict ? 'verdict-error' : undefined}>
         <legend className="text-sm font-medium text-neutral-800">Verdict</legend>
@@ -123,7 +126,7 @@ function Form({ slug, studyId, version, analysisRunId, meaning, signerName }: Si
       </div>
       {message && <FormMessage tone={message.tone}>{message.text}</FormMessage>}
       <div>
-        <SubmitButton busy={sign.isPending}>Sign the study</SubmitButton>
+        <SubmitButton busy={sign.isPending || !hydrated}>Sign the study</SubmitButton>
       </div>
     </form>
   );
@@ -146,6 +149,8 @@ interface ReturnProps {
 
 function Return({ slug, studyId, version }: ReturnProps) {
   const [error, setError] = useState<string | null>(null);
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
   const send = useMutation({
     mutationFn: (reason: string) => api('POST', `/api/labs/${slug}/studies/${studyId}/return`, { reason, version }),
     onSuccess: () => window.location.reload(),
@@ -180,7 +185,7 @@ function Return({ slug, studyId, version }: ReturnProps) {
         </p>
       )}
       <div>
-        <button type="submit" disabled={send.isPending} className="rounded border border-brand-700 px-4 py-1.5 font-medium text-brand-800 hover:bg-brand-50 disabled:opacity-60">
+        <button type="submit" disabled={send.isPending || !hydrated} className="rounded border border-brand-700 px-4 py-1.5 font-medium text-brand-800 hover:bg-brand-50 disabled:opacity-60">
           {send.isPending ? 'Working…' : 'Return for changes'}
         </button>
       </div>

@@ -1,5 +1,5 @@
 import { useMutation } from '@tanstack/react-query';
-import { useState, type FormEvent } from 'react';
+import { useEffect, useState, type FormEvent } from 'react';
 import { api, ApiError } from '../lib/apiClient';
 import { QueryRoot } from './QueryRoot';
 import { FormMessage } from './ui/Field';
@@ -16,6 +16,9 @@ const buttonClass = 'rounded bg-brand-700 px-4 py-1.5 font-medium text-white hov
 
 function Submit({ slug, studyId, version, blocker }: SubmitProps) {
   const [message, setMessage] = useState<{ tone: 'error' | 'info'; text: string } | null>(null);
+  // Disabled until the island runs, so that an early click is not lost.
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
   const submit = useMutation({
     mutationFn: () => api<{ notified: string[] }>('POST', `/api/labs/${slug}/studies/${studyId}/submit`, { version }),
     onSuccess: (data) => {
@@ -29,7 +32,7 @@ function Submit({ slug, studyId, version, blocker }: SubmitProps) {
       {blocker && <FormMessage tone="info">{blocker}</FormMessage>}
       {message && <FormMessage tone={message.tone}>{message.text}</FormMessage>}
       <div>
-        <button type="button" className={buttonClass} disabled={!!blocker || submit.isPending} onClick={() => submit.mutate()}>
+        <button type="button" className={buttonClass} disabled={!!blocker || submit.isPending || !hydrated} onClick={() => submit.mutate()}>
           {submit.isPending ? 'Working…' : 'Submit for sign-off'}
         </button>
       </div>
@@ -54,6 +57,8 @@ interface AmendProps {
 
 function Amend({ slug, studyId, version }: AmendProps) {
   const [error, setError] = useState<string | null>(null);
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
   const amend = useMutation({
     mutationFn: (reason: string) => api<{ study: { id: string } }>('POST', `/api/labs/${slug}/studies/${studyId}/amend`, { reason, version }),
     onSuccess: (data) => window.location.assign(`/labs/${slug}/studies/${data.study.id}/sign`),
@@ -86,7 +91,7 @@ function Amend({ slug, studyId, version }: AmendProps) {
         </p>
       )}
       <div>
-        <button type="submit" className={buttonClass} disabled={amend.isPending}>
+        <button type="submit" className={buttonClass} disabled={amend.isPending || !hydrated}>
           {amend.isPending ? 'Working…' : 'Open a new revision'}
         </button>
       </div>

@@ -104,7 +104,11 @@ export default function CsvImport({ slug, studyId, rules }: Props) {
   const [reason, setReason] = useState('');
   const [problem, setProblem] = useState<{ detail: string; list: RowMessage[] } | null>(null);
   const workerRef = useRef<Worker | null>(null);
-  useEffect(() => () => workerRef.current?.terminate(), []);
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => {
+    setHydrated(true);
+    return () => workerRef.current?.terminate();
+  }, []);
 
   function choose(file: File | undefined) {
     setProblem(null);
@@ -197,7 +201,7 @@ export default function CsvImport({ slug, studyId, rules }: Props) {
           <label htmlFor="csv-file" className="text-sm font-medium">
             CSV file
           </label>
-          <input id="csv-file" type="file" accept=".csv,.txt,text/csv" onChange={(e) => choose(e.currentTarget.files?.[0])} className="text-sm" />
+          <input id="csv-file" type="file" accept=".csv,.txt,text/csv" disabled={!hydrated} onChange={(e) => choose(e.currentTarget.files?.[0])} className="text-sm" />
         </div>
       )}
       {step.name === 'done' && (

@@ -58,6 +58,9 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
   const tabAnchor = useRef<number | null>(null);
   const [reasonFor, setReasonFor] = useState<{ key: string; fields: string[] } | null>(null);
   const [warningsByRow, setWarningsByRow] = useState<Record<string, Record<string, string>>>({});
+  // Cells take typing only once the island runs; keys pressed into the server-rendered page would be lost.
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
 
   const loaded = useQuery({ queryKey: ['grid', studyId], queryFn: () => api<{ rows: GridRow[] }>('GET', `${base}/samples`) });
 
@@ -325,6 +328,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
                         aria-describedby={`row-status-${row.key}`}
                         title={error ?? warning ?? undefined}
                         value={value}
+                        disabled={!hydrated}
                         onFocus={(e) => {
                           e.currentTarget.select();
                           onCellFocus(row.key);

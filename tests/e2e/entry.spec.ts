@@ -57,6 +57,7 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   const rows = grid.getByTestId('grid-row');
 
   // A dozen pairs, keyboard only: Tab across a row, Enter back to the first column of the next row.
+  await expect(page.getByLabel('new row 1: sample code')).toBeEnabled();
   await page.getByLabel('new row 1: sample code').focus();
   for (const [i, row] of typed.entries()) {
     await typeRow(page, row);
@@ -86,6 +87,7 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
 
   // A CSV whose columns need mapping: the guesses find the code column; the technician maps the rest.
   const importer = page.getByTestId('csv-import');
+  await expect(importer.getByLabel('CSV file')).toBeEnabled();
   await importer.getByLabel('CSV file').setInputFiles('tests/fixtures/csv/e2e-mapping.csv');
   // The worker starts and reads the file off the main thread; a busy machine may take a while.
   await expect(importer.getByTestId('csv-mapping')).toContainText('3 data rows, separated by semicolon, with decimal commas', { timeout: 30_000 });
@@ -115,6 +117,7 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   await signInAs(other, 'technician');
   await other.goto(studyUrl);
   await expect(other.getByLabel('E2E-01: comparative replicate 1')).toHaveValue('40.0');
+  await expect(other.getByLabel('E2E-01: comparative replicate 1')).toBeEnabled();
 
   const changeWithReason = async (tab: Page, value: string, reason: string) => {
     await tab.getByLabel('E2E-01: comparative replicate 1').focus();

@@ -58,6 +58,12 @@ function fromStored(settings: Record<string, unknown>): Values {
 const sectionClass = 'grid gap-3 rounded border border-neutral-200 bg-white p-4';
 const buttonClass = 'rounded border border-neutral-300 bg-white px-2.5 py-1 text-sm hover:bg-neutral-50 focus:outline-2 focus:outline-brand-600';
 
+/**
+ * The designer for one draft version (see the file comment).
+ *
+ * @example
+ * <ProtocolDesigner client:load slug="eastmere" protocolId={p.id} versionId={v.id} versionNumber={1} settings={v.settings} rowVersion={v.version} updatedAt={iso} canApprove />
+ */
 export default function ProtocolDesigner({ slug, protocolId, versionId, versionNumber, settings, rowVersion, updatedAt, canApprove }: Props) {
   const base = `/api/labs/${slug}/protocols/${protocolId}/versions/${versionId}`;
   const hydrated = useHydrated();
@@ -210,7 +216,10 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
 
   const status =
     saveState.kind === 'saved'
-      ? `✔ Saved at ${clock.format(saveState.at)}`
+      ? // The time is the reader's local time, known only in the browser.
+        hydrated
+        ? `✔ Saved at ${clock.format(saveState.at)}`
+        : '✔ Saved'
       : saveState.kind === 'saving'
         ? '… Saving'
         : saveState.kind === 'pending'

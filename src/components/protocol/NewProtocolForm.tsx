@@ -13,6 +13,12 @@ interface TemplateChoice {
   levels: number[];
 }
 
+/**
+ * Template choice (grouped by discipline) or blank, then POST /protocols and open the new draft.
+ *
+ * @example
+ * <NewProtocolForm client:load slug="eastmere" templates={templates} />
+ */
 export default function NewProtocolForm({ slug, templates }: { slug: string; templates: TemplateChoice[] }) {
   const hydrated = useHydrated();
   const select = useRef<HTMLSelectElement>(null);

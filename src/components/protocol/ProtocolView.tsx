@@ -29,6 +29,12 @@ function Section({ title, children }: { title: string; children: ReactNode }) {
 
 const text = (value: unknown) => (typeof value === 'string' && value.trim() !== '' ? value : <span className="text-neutral-500">not given</span>);
 
+/**
+ * A stored version's settings, read-only, with the allowable limit worked out at each decision level.
+ *
+ * @example
+ * <ProtocolView settings={version.settings} />
+ */
 export default function ProtocolView({ settings }: { settings: Loose }) {
   const units: string = settings.analyte?.units ?? '';
   const interval = settings.analyte?.measuringInterval ?? {};

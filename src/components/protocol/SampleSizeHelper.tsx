@@ -34,6 +34,12 @@ function rowFor(level: Level, spread: DifferenceSpread, expectedBiasPercent: num
 
 const inputClass = 'w-28 rounded border border-neutral-300 bg-white px-2 py-1 text-right tabular-nums';
 
+/**
+ * Samples needed at each decision level (samplesToDecideBias), the largest offered as the plan's count.
+ *
+ * @example
+ * <SampleSizeHelper levels={values.decisionLevels} units="mmol/L" onUseCount={(n) => setValue('samplePlan.count', n)} />
+ */
 export function SampleSizeHelper({ levels, units, onUseCount }: { levels: Level[]; units: string; onUseCount: (n: number) => void }) {
   const id = useId();
   const [kind, setKind] = useState<'sd' | 'cv'>('cv');

@@ -4,6 +4,12 @@ import { api, ApiError } from '../../lib/apiClient';
 import { FormMessage } from '../ui/Field';
 import { useHydrated } from './useHydrated';
 
+/**
+ * POST /protocols/:id/versions, then reload into the designer.
+ *
+ * @example
+ * <StartVersionButton client:load slug="eastmere" protocolId={protocol.id} nextNumber={2} />
+ */
 export default function StartVersionButton({ slug, protocolId, nextNumber }: { slug: string; protocolId: string; nextNumber: number }) {
   const hydrated = useHydrated();
   const [busy, setBusy] = useState(false);

@@ -2,16 +2,31 @@
 import { useEffect, useState, type ReactNode } from 'react';
 import { get, useController, type Control, type FieldErrors, type FieldValues, type Path } from 'react-hook-form';
 
-/** A DOM id for a dotted field path ("decisionLevels.0.value" → "pf-decisionLevels-0-value"). */
+/**
+ * A DOM id for a dotted field path, so error summaries can link to the field.
+ *
+ * @example
+ * fieldId('decisionLevels.0.value'); // 'pf-decisionLevels-0-value'
+ */
 export const fieldId = (path: string) => `pf-${path.replace(/\./g, '-')}`;
 
-/** The message for a path: the field's own error, or the root error of an array field. */
+/**
+ * The message for a path: the field's own error, or the root error of an array field.
+ *
+ * @example
+ * errorAt(formState.errors, 'samplePlan.intervalParts'); // 'The shares must sum to 1 (they sum to 0.9).'
+ */
 export function errorAt(errors: FieldErrors, path: string): string | undefined {
   const found = get(errors, path) as { message?: string; root?: { message?: string } } | undefined;
   return found?.message ?? found?.root?.message;
 }
 
-/** Every error message in an errors tree, with the dotted path of its field. */
+/**
+ * Every error message in an errors tree, with the dotted path of its field (an array's root error under the array's path).
+ *
+ * @example
+ * flattenErrors(formState.errors); // [{ path: 'primaryEstimator.rationale', message: 'Say why this estimator is the primary one.' }]
+ */
 export function flattenErrors(errors: FieldErrors, prefix = ''): { path: string; message: string }[] {
   const out: { path: string; message: string }[] = [];
   for (const [key, value] of Object.entries(errors as Record<string, unknown>)) {
@@ -38,7 +53,12 @@ interface ShellProps {
   className?: string;
 }
 
-/** Label, control, and the field's error (or warning, or hint) announced with it. */
+/**
+ * Label, control, and the field's error, warning and hint, tied to the control with aria-describedby.
+ *
+ * @example
+ * <FieldShell path="title" label="Protocol title" error={errorAt(errors, 'title')}>{(aria) => <input {...aria} {...register('title')} />}</FieldShell>
+ */
 export function FieldShell({ path, label, error, warning, hint, children, className = '' }: ShellProps) {
   const id = fieldId(path);
   const describedBy = [error && `${id}-error`, warning && `${id}-warning`, hint && `${id}-hint`].filter(Boolean).join(' ') || undefined;
@@ -67,7 +87,12 @@ const percentText = (share: unknown) => (typeof share === 'number' && Number.isF
 const shareOf = (text: string) => (text.trim() === '' ? Number.NaN : Number(text) / 100);
 const sameShare = (a: unknown, b: number) => (typeof a === 'number' && Number.isNaN(a) && Number.isNaN(b)) || a === b;
 
-/** A share stored as a fraction 0–1 and typed as a percentage; keeps what is typed until the value changes elsewhere. */
+/**
+ * A share stored as a fraction 0–1 and typed as a percentage; keeps what is typed until the value changes elsewhere.
+ *
+ * @example
+ * <PercentInput control={control} name="outlierPolicy.maxShare" aria={aria} />; // shows 2.5 for 0.025
+ */
 export function PercentInput<T extends FieldValues>({ control, name, aria }: { control: Control<T>; name: Path<T>; aria: Parameters<ShellProps['children']>[0] }) {
   const { field } = useController({ control, name });
   const [text, setText] = useState(() => percentText(field.value));

@@ -5,6 +5,7 @@
  * study locked; quality & regulatory makes the report and downloads the dossier.
  */
 import { readFileSync } from 'node:fs';
+import AxeBuilder from '@axe-core/playwright';
 import { expect, test, type APIRequestContext, type Browser, type Page } from '@playwright/test';
 import { demoPairs } from '../../scripts/demo';
 import type { Role } from '../../src/db/schema';
@@ -22,6 +23,13 @@ async function personPage(browser: Browser, role: Role): Promise<Page> {
 
 interface StudyBody {
   study: { id: string; version: number; state: string; verdict: string | null };
+}
+
+/** No serious or critical axe-core violations (WCAG 2.x A and AA rules). */
+async function expectAccessible(page: Page) {
+  const results = await new AxeBuilder({ page }).withTags(['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa']).analyze();
+  const serious = results.violations.filter((v) => v.impact === 'serious' || v.impact === 'critical');
+  expect(serious.map((v) => `${v.id}: ${v.help} (${v.nodes.map((n) => n.target.join(' ')).join(', ')})`)).toEqual([]);
 }
 
 /** The JSON of an answer expected to have `status` (its body is shown when it does not). */
@@ -87,6 +95,7 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   await expect(directorPage.getByTestId('standing-caution')).toContainText("never replaces, the medical director's judgement");
   await expect(directorPage.getByTestId('decision-level-table')).toBeVisible();
   await expect(directorPage.getByTestId('signature-meaning')).toContainText('By signing I confirm that I reviewed');
+  await expectAccessible(directorPage);
 
   // Conditions are required; a wrong password signs nothing.
   await directorPage.getByLabel('Accepted with conditions').check();
@@ -108,6 +117,8 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   await expect(directorPage.getByTestId('study-verdict')).toContainText('Accepted with conditions');
   await expect(directorPage.getByTestId('signature-table')).toContainText(director.name);
   await expect(directorPage.getByTestId('sign-off-form')).toHaveCount(0);
+  await expectAccessible(directorPage);
+  await directorPage.screenshot({ path: `${E2E_DIRS.screenshots}/sign-off-signed.png`, fullPage: true });
   await scientist.goto(signPath);
   await expect(scientist.getByTestId('locked-notice')).toBeVisible();
   await expect(scientist.getByRole('button', { name: 'Submit for sign-off' })).toHaveCount(0);

@@ -5,7 +5,6 @@ const baseURL = `http://127.0.0.1:${E2E_PORTS.web}`;
 
 export default defineConfig({
   testDir: 'tests/e2e',
-  testMatch: '**/*.spec.ts',
   outputDir: 'test-results/e2e',
   // One server and one database shared by the journeys, which run in order.
   workers: 1,
@@ -30,6 +29,10 @@ export default defineConfig({
       ],
     },
   },
+  projects: [
+    { name: 'demo', testMatch: 'demo.setup.ts' },
+    { name: 'journeys', testMatch: '**/*.spec.ts', dependencies: ['demo'] },
+  ],
   webServer: {
     command: 'npx tsx tests/e2e/server.ts',
     url: `${baseURL}/api/health`,

@@ -21,6 +21,8 @@ export const DEMO_PEOPLE = [
   { role: 'lab_admin', name: 'Priya Raman', email: 'admin@eastmere.example' },
 ] as const satisfies readonly { role: schema.Role; name: string; email: string }[];
 
+export const DEMO_STUDY_TITLE = 'Kestrel bench analyser against Heron: plasma glucose';
+
 /** The far-out sample and the two discordant ones, so tests and the README can name them. */
 export const DEMO_SPECIAL_SAMPLES = { highLeverage: 'EM-0060', discordant: ['EM-0017', 'EM-0042'] } as const;
 
@@ -122,7 +124,7 @@ export async function seedDemo(db: Database) {
       .values({
         laboratoryId: lab.id,
         protocolVersionId: version.id,
-        title: 'Kestrel bench analyser against Heron: plasma glucose',
+        title: DEMO_STUDY_TITLE,
         candidateProcedure: procedures.candidate,
         comparativeProcedure: procedures.comparative,
         state: 'collecting',

@@ -8,7 +8,9 @@ import { createDatabase } from '../src/db/client';
 import { applyMigrations } from './migrate';
 import { DEMO_LAB, DEMO_PASSWORD, DEMO_PEOPLE, isEmpty, seedDemo } from './demo';
 import { APP_SMTP_PORT, APP_WEB_PORT, DATA_DIR, ROOT, SERVER_ENTRY, appDatabaseUrl, authSecret } from './local';
+import { seedSignedStudy } from './demo-signed';
 import { startSmtpFake } from './smtp-fake';
+import { waitForHealth } from './wait-for-health';
 
 const dev = process.argv.includes('--dev');
 const host = process.env.HOST ?? '127.0.0.1';
@@ -17,7 +19,8 @@ const port = Number(process.env.PORT ?? APP_WEB_PORT);
 const databaseUrl = await appDatabaseUrl();
 const db = createDatabase(databaseUrl, 2);
 await applyMigrations(db);
-if (await isEmpty(db)) {
+const seeding = await isEmpty(db);
+if (seeding) {
   console.log('Empty database: seeding the demo laboratory …');
   await seedDemo(db);
 }
@@ -47,6 +50,12 @@ if (!dev) {
 const server = dev
   ? spawn('npx', ['astro', 'dev', '--host', host, '--port', String(port)], { cwd: ROOT, stdio: 'inherit', env })
   : spawn(process.execPath, [SERVER_ENTRY], { cwd: ROOT, stdio: 'inherit', env });
+
+if (seeding) {
+  await waitForHealth(`http://${host}:${port}`);
+  console.log('Signing the demo study through the app (analysis, bootstrap, sign-off) …');
+  await seedSignedStudy(`http://${host}:${port}`);
+}
 
 console.log(`
 Biaswise is running at http://${host}:${port}

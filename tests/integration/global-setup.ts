@@ -11,6 +11,7 @@ import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
 import { DATA_DIR, ROOT, SERVER_ENTRY } from '../../scripts/local';
 import { startSmtpFake } from '../../scripts/smtp-fake';
+import { waitForHealth } from '../../scripts/wait-for-health';
 
 async function freePort(): Promise<number> {
   return new Promise((resolve, reject) => {
@@ -21,20 +22,6 @@ async function freePort(): Promise<number> {
       server.close(() => resolve(typeof address === 'object' && address ? address.port : 0));
     });
   });
-}
-
-async function waitForHealth(url: string, seconds: number) {
-  const deadline = Date.now() + seconds * 1000;
-  while (Date.now() < deadline) {
-    try {
-      const response = await fetch(`${url}/api/health`);
-      if (response.ok) return;
-    } catch {
-      // not listening yet
-    }
-    await new Promise((r) => setTimeout(r, 200));
-  }
-  throw new Error(`The built server did not answer ${url}/api/health within ${seconds} s.`);
 }
 
 function alive(pid: number) {

@@ -6,6 +6,7 @@ import { hashPassword } from 'better-auth/crypto';
 import { getDb } from '../../src/server/db';
 import { account, laboratories, memberships, user, ROLES, type Role } from '../../src/db/schema';
 import { readCapturedMail } from '../../src/server/mailbox';
+import { createHttpSession, signedInSession, type HttpSession } from '../../scripts/http-session';
 
 export const BASE_URL = () => {
   const url = process.env.TEST_BASE_URL;
@@ -43,65 +44,13 @@ export async function createLabWithMembers(label = 'lab'): Promise<TestLab> {
   return { id: lab.id, slug: lab.slug, name: lab.name, people };
 }
 
-export interface HttpClient {
-  request(method: string, path: string, body?: unknown, headers?: Record<string, string>): Promise<Response>;
-  get(path: string): Promise<Response>;
-  post(path: string, body?: unknown): Promise<Response>;
-  patch(path: string, body?: unknown): Promise<Response>;
-  put(path: string, body?: unknown): Promise<Response>;
-  delete(path: string): Promise<Response>;
-  cookie: string;
-}
+export type HttpClient = HttpSession;
 
-/** An HTTP client with a cookie jar, like a browser on the app's own origin. */
-export function httpClient(initialCookie = ''): HttpClient {
-  const jar = new Map<string, string>();
-  for (const part of initialCookie.split(';').map((s) => s.trim()).filter(Boolean)) {
-    const [k, ...v] = part.split('=');
-    jar.set(k, v.join('='));
-  }
-  const client: HttpClient = {
-    get cookie() {
-      return [...jar].map(([k, v]) => `${k}=${v}`).join('; ');
-    },
-    async request(method, path, body, headers = {}) {
-      const isJson = body !== undefined && !(body instanceof FormData) && typeof body !== 'string';
-      const response = await fetch(`${BASE_URL()}${path}`, {
-        method,
-        redirect: 'manual',
-        headers: {
-          origin: BASE_URL(),
-          ...(isJson ? { 'content-type': 'application/json' } : {}),
-          ...(jar.size ? { cookie: client.cookie } : {}),
-          ...headers,
-        },
-        body: body === undefined ? undefined : isJson ? JSON.stringify(body) : (body as BodyInit),
-      });
-      for (const setCookie of response.headers.getSetCookie()) {
-        const [pair, ...attributes] = setCookie.split(';');
-        const [name, ...value] = pair.split('=');
-        const expired = attributes.some((a) => /max-age=0/i.test(a.trim()));
-        if (expired || value.join('=') === '') jar.delete(name.trim());
-        else jar.set(name.trim(), value.join('='));
-      }
-      return response;
-    },
-    get: (path) => client.request('GET', path),
-    post: (path, body) => client.request('POST', path, body),
-    patch: (path, body) => client.request('PATCH', path, body),
-    put: (path, body) => client.request('PUT', path, body),
-    delete: (path) => client.request('DELETE', path),
-  };
-  return client;
-}
+/** An HTTP client with a cookie jar against the built server, like a browser on the app's own origin. */
+export const httpClient = (initialCookie = ''): HttpClient => createHttpSession(BASE_URL(), initialCookie);
 
 /** Signs in through better-auth's real endpoint; throws unless it succeeds. */
-export async function signIn(email: string, password = TEST_PASSWORD): Promise<HttpClient> {
-  const client = httpClient();
-  const response = await client.post('/api/auth/sign-in/email', { email, password });
-  if (!response.ok) throw new Error(`sign-in as ${email} failed: ${response.status} ${await response.text()}`);
-  return client;
-}
+export const signIn = (email: string, password = TEST_PASSWORD): Promise<HttpClient> => signedInSession(BASE_URL(), email, password);
 
 /** Messages kept by the SMTP capture for one address, oldest first. */
 export async function mailTo(address: string) {

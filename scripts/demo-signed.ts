@@ -53,7 +53,7 @@ export async function seedSignedStudy(baseUrl: string, timeoutMs = 180_000) {
   await expectOk(await technician.post(`${base}/results`, { results }), 'uploading results');
 
   await expectOk(await scientist.post(`${base}/analysis`, {}), 'running the analysis');
-  const analysis = await waitFor(scientist, `${base}/analysis`, (body: { bootstrapDone: boolean }) => body.bootstrapDone, timeoutMs);
+  const analysis = await waitFor<{ bootstrapDone: boolean; run: { id: string } }>(scientist, `${base}/analysis`, (body) => body.bootstrapDone, timeoutMs);
   const { study: analysed } = await expectOk<{ study: { version: number } }>(await scientist.get(base), 'reading the study');
   await expectOk(await scientist.post(`${base}/submit`, { version: analysed.version }), 'submitting for sign-off');
 
@@ -65,7 +65,7 @@ export async function seedSignedStudy(baseUrl: string, timeoutMs = 180_000) {
       comment: 'The new lot agrees with the current one at every decision level.',
       password: DEMO_PASSWORD,
       version: inReview.version,
-      analysisRunId: (analysis as { run: { id: string } }).run.id,
+      analysisRunId: analysis.run.id,
     }),
     'signing',
   );

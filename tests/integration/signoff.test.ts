@@ -7,7 +7,8 @@ import { and, eq, ne, sql } from 'drizzle-orm';
 import { afterAll, describe, expect, it } from 'vitest';
 import { getDb } from '../../src/server/db';
 import { auditTrail, verifyChain } from '../../src/server/audit';
-import { exclusions, outgoingMail, results, samples, signatures, studies } from '../../src/db/schema';
+import { analysisRuns, exclusions, outgoingMail, results, samples, signatures, studies } from '../../src/db/schema';
+import { inputsHashOf, studyInputs } from '../../src/server/analysis';
 import { demoPairs } from '../../scripts/demo';
 import { createLabWithMembers, linkIn, signIn, TEST_PASSWORD, waitForMail, type HttpClient } from './helpers';
 import { collectingStudy, problemOf, type CollectingStudy } from './studySetup';
@@ -213,6 +214,30 @@ describe('submit for sign-off, e-mail, sign', () => {
     expect((await problemOf(refused)).detail).toMatch(/changed since the last analysis run/);
     expect(await signatureCount(study.studyId)).toBe(0);
     expect((await stateOf(study.studyId)).state).toBe('in_review');
+  });
+});
+
+describe('an analysis still computing', () => {
+  it('refuses submission while the bootstrap intervals of a current run are pending (409), and nothing changes', async () => {
+    const study = await collectingStudy('pending');
+    await enterPairs(study, 10, 5);
+    // A current run whose bootstrap is still pending, written as the analysis service writes it before its job ends.
+    const inputs = await studyInputs(study.lab.id, study.studyId);
+    await getDb()
+      .insert(analysisRuns)
+      .values({
+        laboratoryId: study.lab.id,
+        studyId: study.studyId,
+        inputsHash: inputsHashOf(inputs),
+        engineVersion: inputs.engineVersion,
+        settings: inputs.settings,
+        results: { analysis: {}, inputs, bootstrap: { status: 'pending', jobId: null, resamples: 0 } },
+      });
+    const version = await studyVersion(study.scientist, study.base);
+    const pending = await study.scientist.post(`${study.base}/submit`, { version });
+    expect(pending.status).toBe(409);
+    expect((await problemOf(pending)).detail).toMatch(/bootstrap confidence intervals are still being computed/);
+    expect(await stateOf(study.studyId)).toMatchObject({ state: 'collecting', version });
   });
 });
 

@@ -124,6 +124,12 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   await expect(scientist.getByRole('button', { name: 'Submit for sign-off' })).toHaveCount(0);
   const late = await technician.request.post(`${base}/results`, { data: { results: [{ sampleCode: 'PL-LATE', procedure: 'comparative', replicate: 1, value: 90, unit: 'mg/dL' }] } });
   expect(late.status()).toBe(409);
+  // The technician's study page offers no way to enter or import results any more.
+  await technician.goto(`/labs/${DEMO_LAB.slug}/studies/${studyId}`);
+  await expect(technician.getByTestId('study-state')).toContainText('Signed');
+  await expect(technician.getByTestId('entry-grid')).toContainText('Read-only');
+  await expect(technician.getByTestId('entry-grid').locator('input')).toHaveCount(0);
+  await expect(technician.getByTestId('csv-import')).toHaveCount(0);
   expect((await ok<StudyBody>(await scientist.request.get(base))).study).toMatchObject({ state: 'signed', verdict: 'accepted_with_conditions' });
   const told = await waitForMail(demoPerson('lab_scientist').email, `Signed (Accepted with conditions): ${TITLE}`);
   expect(told.text).toContain(signPath);

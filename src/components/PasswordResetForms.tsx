@@ -16,7 +16,7 @@ export function RequestResetForm() {
   // The same answer whether or not the address has an account.
   if (done) return <FormMessage tone="info">If that address has an account, a reset link is on its way.</FormMessage>;
   return (
-    <form onSubmit={submit} className="flex flex-col gap-4">
+    <form method="post" onSubmit={submit} className="flex flex-col gap-4">
       <Field label="E-mail" name="email" type="email" autoComplete="username" required />
       <div>
         <SubmitButton busy={busy}>Send a reset link</SubmitButton>
@@ -49,7 +49,7 @@ export function ResetPasswordForm({ token }: { token: string | null }) {
     );
   }
   return (
-    <form onSubmit={submit} className="flex flex-col gap-4">
+    <form method="post" onSubmit={submit} className="flex flex-col gap-4">
       {error && <FormMessage tone="error">{error}</FormMessage>}
       <Field label="New password" name="password" type="password" autoComplete="new-password" required />
       <Field label="New password again" name="confirm" type="password" autoComplete="new-password" required />

@@ -25,7 +25,7 @@ import { StatsInputError } from '../lib/stats/errors';
 import { errorAt, FieldShell, fieldId, flattenErrors, inputClass, numberClass, PercentInput } from './protocol/formParts';
 import { ESTIMATOR_LABELS, formatNumber, PSI_LABELS } from './protocol/labels';
 import { SampleSizeHelper } from './protocol/SampleSizeHelper';
-import { useHydrated } from './protocol/useHydrated';
+import { useHydrated } from './ui/useHydrated';
 
 interface Props {
   slug: string;

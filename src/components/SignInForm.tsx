@@ -36,7 +36,7 @@ export default function SignInForm({ next }: { next: string | null }) {
   }
 
   return (
-    <form onSubmit={submit} className="flex flex-col gap-4" noValidate>
+    <form method="post" onSubmit={submit} className="flex flex-col gap-4" noValidate>
       {error && <FormMessage tone="error">{error}</FormMessage>}
       {resent && <FormMessage tone="info">A new confirmation e-mail is on its way.</FormMessage>}
       <Field label="E-mail" name="email" type="email" autoComplete="username" required />

@@ -42,7 +42,7 @@ export default function SignUpForm({ next, email: invitedEmail }: { next: string
     );
   }
   return (
-    <form onSubmit={submit} className="flex flex-col gap-4" noValidate>
+    <form method="post" onSubmit={submit} className="flex flex-col gap-4" noValidate>
       {failure && <FormMessage tone="error">{failure}</FormMessage>}
       <Field label="Full name" name="name" autoComplete="name" error={errors.name} required />
       <Field label="E-mail" name="email" type="email" autoComplete="email" defaultValue={invitedEmail} error={errors.email} required />

@@ -204,7 +204,9 @@ export function engineInput(inputs: StudyInputs, withBootstrap: boolean): Compar
     bootstrap: withBootstrap ? { resamples: settings.bootstrap.resamples, method: settings.bootstrap.method } : false,
     plan: settings.plan,
     excludedCount: inputs.excluded.length,
-    robust: { tuning: { [settings.robust.psi]: settings.robust.tuning }, start: settings.robust.start },
+    // The protocol's start applies to its own ψ when that is redescending; Huber always starts from OLS (convex ρ).
+    robust: { tuning: { [settings.robust.psi]: settings.robust.tuning }, start: settings.robust.psi === 'huber' ? undefined : settings.robust.start },
+    outliers: { alpha: settings.outlierPolicy.esdAlpha, maxShare: settings.outlierPolicy.maxShare },
   };
 }
 

@@ -2,7 +2,7 @@
 import { useEffect, useRef, useState, type FormEvent } from 'react';
 import { api, ApiError } from '../../lib/apiClient';
 import { FormMessage, SubmitButton } from '../ui/Field';
-import { useHydrated } from './useHydrated';
+import { useHydrated } from '../ui/useHydrated';
 
 interface TemplateChoice {
   id: string;

@@ -2,7 +2,7 @@
 import { useState } from 'react';
 import { api, ApiError } from '../../lib/apiClient';
 import { FormMessage } from '../ui/Field';
-import { useHydrated } from './useHydrated';
+import { useHydrated } from '../ui/useHydrated';
 
 /**
  * POST /protocols/:id/versions, then reload into the designer.

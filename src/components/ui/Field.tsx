@@ -1,4 +1,5 @@
 import type { InputHTMLAttributes, ReactNode } from 'react';
+import { useHydrated } from './useHydrated';
 
 interface FieldProps extends InputHTMLAttributes<HTMLInputElement> {
   label: string;
@@ -48,11 +49,16 @@ export function FormMessage({ tone, children }: { tone: 'error' | 'info'; childr
   );
 }
 
+/**
+ * The form's submit button, disabled until the island has hydrated: with its only submit button disabled a form
+ * cannot be submitted natively (which would put the fields, a password among them, in the address).
+ */
 export function SubmitButton({ busy, children }: { busy: boolean; children: ReactNode }) {
+  const hydrated = useHydrated();
   return (
     <button
       type="submit"
-      disabled={busy}
+      disabled={busy || !hydrated}
       className="rounded bg-brand-700 px-4 py-1.5 font-medium text-white hover:bg-brand-800 disabled:opacity-60"
     >
       {busy ? 'Working…' : children}

@@ -70,6 +70,8 @@ export interface ComparisonInput {
   /** Samples excluded before the analysis, for the exclusion caution. */
   excludedCount?: number;
   robust?: { tuning?: Partial<Record<MNormKey, number[]>>; start?: 'ols' | 's-estimate' };
+  /** Generalized ESD screen of the differences: α and the largest share of samples it may mark (defaults 0.05 and 2.5 %). */
+  outliers?: { alpha?: number; maxShare?: number };
 }
 
 /** A fit as the analysis reports it: the line plus what its method adds (Deming's λ, Passing–Bablok's K, N, CUSUM). */
@@ -206,11 +208,12 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
     if (!(error instanceof StatsInputError)) throw error;
   }
 
-  const maxOutliers = maxOutliersForShare(n, ESD_MAX_SHARE);
-  const screen = maxOutliers > 0 ? generalizedEsd(absolute.differences, { alpha: ESD_ALPHA, maxOutliers }) : { outlierIndices: [], steps: [] };
+  const esdAlpha = input.outliers?.alpha ?? ESD_ALPHA;
+  const maxOutliers = maxOutliersForShare(n, input.outliers?.maxShare ?? ESD_MAX_SHARE);
+  const screen = maxOutliers > 0 ? generalizedEsd(absolute.differences, { alpha: esdAlpha, maxOutliers }) : { outlierIndices: [], steps: [] };
   const outlierIndices = [...screen.outlierIndices].sort((a, b) => a - b);
   const esd = {
-    alpha: ESD_ALPHA,
+    alpha: esdAlpha,
     maxOutliers,
     outlierIndices,
     outlierSampleIds: outlierIndices.map((i) => sampleIds[i]),
@@ -233,7 +236,7 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
     ...redescendingCautions(startComparisons, x, y),
     ...nonNull(downWeightCaution(sampleIds, robustWeights)),
     ...(methods.includes('passingBablok') ? passingBablokCautions({ correlation, cusum: fits.passingBablok?.cusum }) : []),
-    ...nonNull(esdCaution(sampleIds, absolute.differences, outlierIndices, ESD_ALPHA)),
+    ...nonNull(esdCaution(sampleIds, absolute.differences, outlierIndices, esdAlpha)),
     ...nonNull(extrapolationCaution(levels, x)),
   );
   for (const row of bias.rows) {

@@ -103,6 +103,14 @@ describe('analyzeComparison settings', () => {
     expect(analysis.bootstrap).toBeNull();
   });
 
+  it("the ESD screen follows the caller's α and largest share of outliers", () => {
+    const defaults = analyzeComparison({ ...cleanStudy(), bootstrap: false });
+    expect(defaults.esd).toMatchObject({ alpha: 0.05, maxOutliers: 1 });
+    const policy = analyzeComparison({ ...cleanStudy(), bootstrap: false, outliers: { alpha: 0.01, maxShare: 0.1 } });
+    expect(policy.esd).toMatchObject({ alpha: 0.01, maxOutliers: 4 });
+    expect(() => analyzeComparison({ ...cleanStudy(), outliers: { alpha: 1.5 } })).toThrow(/alpha/);
+  });
+
   it('rejects bad input with StatsInputError naming the field', () => {
     const study = cleanStudy();
     expect(() => analyzeComparison({ ...study, sampleIds: study.sampleIds.slice(1) })).toThrow(/sampleIds/);

@@ -126,7 +126,8 @@ export async function listStudies(laboratoryId: string) {
       protocolTitle: protocols.title,
       analyte: protocols.analyte,
       versionNumber: protocolVersions.versionNumber,
-      samples: sql<number>`(select count(*)::int from ${samples} where ${samples.studyId} = ${studies.id})`,
+      // Correlated subquery with explicit table names: inside sql`` Drizzle renders bare column names.
+      samples: sql<number>`(select count(*)::int from samples s where s.study_id = studies.id)`,
     })
     .from(studies)
     .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))

@@ -1,7 +1,6 @@
 import { StatsInputError } from './errors';
 import { tQuantile } from './distributions';
-import { validateConfidence } from './deming';
-import { validatePairs, validatePositive } from './validate';
+import { validateConfidence, validatePairs, validatePositive } from './validate';
 
 export type DifferenceKind = 'absolute' | 'percent';
 

@@ -1,6 +1,6 @@
 import { StatsInputError } from './errors';
 import { tQuantile } from './distributions';
-import { validateFinite, validatePairs, validatePositive } from './validate';
+import { validateConfidence, validateFinite, validatePairs, validatePositive } from './validate';
 import type { LineFit } from './types';
 
 export interface DemingOptions {
@@ -314,15 +314,3 @@ function jackknifeSummary(
   };
 }
 
-/**
- * Throws unless the confidence level is strictly between 0 and 1.
- *
- * @example
- * validateConfidence(0.95); // passes
- * validateConfidence(95); // throws StatsInputError: confidence must be between 0 and 1 (got 95)
- */
-export function validateConfidence(confidence: number): void {
-  if (!Number.isFinite(confidence) || confidence <= 0 || confidence >= 1) {
-    throw new StatsInputError(`confidence must be between 0 and 1 (got ${String(confidence)})`, { field: 'confidence' });
-  }
-}

@@ -25,5 +25,3 @@ export * from './random';
 export * from './sEstimator';
 export * from './types';
 export * from './validate';
-// ols.ts and deming.ts both export a validateConfidence; the two agree, this picks one for the public API
-export { validateConfidence } from './ols';

@@ -1,9 +1,8 @@
 import { StatsInputError } from './errors';
 import { tQuantile, normalQuantile } from './distributions';
 import { createLineDesign, MAD_CONSTANT, medianAbs, selectKth } from './linear';
-import { validateConfidence } from './ols';
 import type { LineFit } from './types';
-import { validatePairs } from './validate';
+import { validateConfidence, validatePairs } from './validate';
 
 /** A line through data point `pivot` and data point `other`, with its sum of absolute residuals. */
 interface PivotLine {

@@ -2,10 +2,10 @@ import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, madScale, toArray, type LinearDesign } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
-import { validateConfidence, validateResponse } from './ols';
+import { validateResponse } from './ols';
 import { sEstimateOnDesign } from './sEstimator';
 import type { LineFit, StartKind } from './types';
-import { validatePairs, validatePositive } from './validate';
+import { validateConfidence, validatePairs, validatePositive } from './validate';
 
 /** Options of an M-estimation by IRLS. */
 export interface MEstimatorOptions {

@@ -2,7 +2,7 @@ import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
 import type { LineFit } from './types';
-import { validateFinite, validatePairs } from './validate';
+import { validateConfidence, validateFinite, validatePairs } from './validate';
 
 /** Result of an ordinary least-squares fit of y on the columns of X. */
 export interface OlsResult {
@@ -22,19 +22,6 @@ export interface OlsResult {
   hat: number[];
 }
 
-/**
- * Checks a confidence level in (0, 1).
- *
- * @example
- * validateConfidence(95); // throws StatsInputError: confidence must be between 0 and 1 (got 95)
- */
-export function validateConfidence(confidence: number): void {
-  if (!Number.isFinite(confidence) || confidence <= 0 || confidence >= 1) {
-    throw new StatsInputError(`confidence must be between 0 and 1 (got ${String(confidence)})`, {
-      field: 'confidence',
-    });
-  }
-}
 
 /**
  * Checks y against a design and returns it as a Float64Array; at least p + 1 rows so that a residual

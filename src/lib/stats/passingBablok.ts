@@ -1,8 +1,7 @@
 import { StatsInputError } from './errors';
 import { normalQuantile } from './distributions';
 import { seededRandom, type SeededRandom } from './random';
-import { validateConfidence } from './deming';
-import { validatePairs } from './validate';
+import { validateConfidence, validatePairs } from './validate';
 import type { LineFit } from './types';
 
 export interface PassingBablokOptions {

@@ -49,3 +49,16 @@ export function validatePositive(value: number, field: string): void {
     throw new StatsInputError(`${field} must be a finite number above 0 (got ${String(value)})`, { field });
   }
 }
+
+/**
+ * Throws unless the confidence level is strictly between 0 and 1.
+ *
+ * @example
+ * validateConfidence(0.95); // passes
+ * validateConfidence(95); // throws StatsInputError: confidence must be between 0 and 1 (got 95)
+ */
+export function validateConfidence(confidence: number): void {
+  if (!Number.isFinite(confidence) || confidence <= 0 || confidence >= 1) {
+    throw new StatsInputError(`confidence must be between 0 and 1 (got ${String(confidence)})`, { field: 'confidence' });
+  }
+}

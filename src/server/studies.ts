@@ -137,6 +137,23 @@ export async function listStudies(laboratoryId: string) {
 }
 
 /**
+ * The study for a page: like getStudy, but null when it does not exist in this laboratory, so the page can show
+ * the 404 page.
+ *
+ * @example
+ * const found = await findStudy(lab.id, Astro.params.id);
+ * if (!found) return Astro.rewrite('/404');
+ */
+export async function findStudy(laboratoryId: string, studyId: string | undefined) {
+  try {
+    return await getStudy(laboratoryId, studyId);
+  } catch (error) {
+    if (error instanceof Problem && error.status === 404) return null;
+    throw error;
+  }
+}
+
+/**
  * One study of the laboratory with its protocol version's settings and assigned technicians, or a 404 Problem.
  *
  * @example

@@ -26,6 +26,16 @@ const bytea = customType<{ data: Buffer; driverData: Buffer }>({ dataType: () =>
 const createdAt = () => timestamp('created_at', { withTimezone: true }).notNull().defaultNow();
 const updatedAt = () => timestamp('updated_at', { withTimezone: true }).notNull().defaultNow();
 const version = () => integer('version').notNull().default(1);
+/** The owning laboratory (every lab-owned row has one; deleting a laboratory deletes its rows). */
+const laboratoryRef = () =>
+  uuid('laboratory_id')
+    .notNull()
+    .references(() => laboratories.id, { onDelete: 'cascade' });
+/** The owning study. */
+const studyRef = () =>
+  uuid('study_id')
+    .notNull()
+    .references(() => studies.id, { onDelete: 'cascade' });
 const inList = (column: string, values: readonly string[]) =>
   sql.raw(`${column} in (${values.map((v) => `'${v}'`).join(', ')})`);
 
@@ -126,9 +136,7 @@ export const memberships = pgTable(
   'memberships',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     userId: text('user_id')
       .notNull()
       .references(() => user.id, { onDelete: 'cascade' }),
@@ -147,9 +155,7 @@ export const invitations = pgTable(
   'invitations',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     email: text('email').notNull(),
     role: text('role', { enum: ROLES }).notNull(),
     tokenHash: text('token_hash').notNull().unique(),
@@ -167,9 +173,7 @@ export const apiTokens = pgTable(
   'api_tokens',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     name: text('name').notNull(),
     tokenHash: text('token_hash').notNull().unique(),
     createdBy: text('created_by')
@@ -188,9 +192,7 @@ export const protocols = pgTable(
   'protocols',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     title: text('title').notNull(),
     analyte: text('analyte').notNull(),
     createdBy: text('created_by')
@@ -208,9 +210,7 @@ export const protocolVersions = pgTable(
     protocolId: uuid('protocol_id')
       .notNull()
       .references(() => protocols.id, { onDelete: 'cascade' }),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     versionNumber: integer('version_number').notNull(),
     status: text('status', { enum: PROTOCOL_STATUSES }).notNull().default('draft'),
     templateId: text('template_id'),
@@ -242,9 +242,7 @@ export const studies = pgTable(
   'studies',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     protocolVersionId: uuid('protocol_version_id')
       .notNull()
       .references(() => protocolVersions.id),
@@ -275,9 +273,7 @@ export const studies = pgTable(
 export const studyAssignments = pgTable(
   'study_assignments',
   {
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    studyId: studyRef(),
     userId: text('user_id')
       .notNull()
       .references(() => user.id, { onDelete: 'cascade' }),
@@ -290,12 +286,8 @@ export const samples = pgTable(
   'samples',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     /** De-identified specimen code; never a patient name. */
     code: text('code').notNull(),
     position: integer('position').notNull(),
@@ -321,12 +313,8 @@ export const results = pgTable(
   'results',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     sampleId: uuid('sample_id')
       .notNull()
       .references(() => samples.id, { onDelete: 'cascade' }),
@@ -357,12 +345,8 @@ export const exclusions = pgTable(
   'exclusions',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     sampleId: uuid('sample_id')
       .notNull()
       .references(() => samples.id, { onDelete: 'cascade' }),
@@ -391,12 +375,8 @@ export const analysisRuns = pgTable(
   'analysis_runs',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     /** sha256 of the canonical inputs (data, exclusions, settings, engine version). */
     inputsHash: text('inputs_hash').notNull(),
     engineVersion: text('engine_version').notNull(),
@@ -416,12 +396,8 @@ export const signatures = pgTable(
   'signatures',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     userId: text('user_id')
       .notNull()
       .references(() => user.id),
@@ -451,9 +427,7 @@ export const attachments = pgTable(
   'attachments',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     studyId: uuid('study_id').references(() => studies.id, { onDelete: 'cascade' }),
     purpose: text('purpose').notNull(),
     fileName: text('file_name').notNull(),
@@ -482,12 +456,8 @@ export const importLogs = pgTable(
   'import_logs',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
-    studyId: uuid('study_id')
-      .notNull()
-      .references(() => studies.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
+    studyId: studyRef(),
     source: text('source', { enum: IMPORT_SOURCES }).notNull(),
     attachmentId: uuid('attachment_id').references(() => attachments.id),
     importedBy: text('imported_by').references(() => user.id),
@@ -562,9 +532,7 @@ export const jobs = pgTable(
   'jobs',
   {
     id: uuid('id').primaryKey().defaultRandom(),
-    laboratoryId: uuid('laboratory_id')
-      .notNull()
-      .references(() => laboratories.id, { onDelete: 'cascade' }),
+    laboratoryId: laboratoryRef(),
     studyId: uuid('study_id').references(() => studies.id, { onDelete: 'cascade' }),
     kind: text('kind').notNull(),
     status: text('status', { enum: JOB_STATUSES }).notNull().default('queued'),

@@ -30,6 +30,8 @@ export default defineConfig({
       SIGN_IN_LIMIT_PER_MINUTE: envField.number({ context: 'server', access: 'secret', default: 30, int: true, gt: 0 }),
       /** Whether this app server also runs the background jobs (bootstrap intervals, report PDFs). */
       RUN_WORKERS: envField.boolean({ context: 'server', access: 'secret', default: true }),
+      /** Seconds a job attempt may run before it counts as lost (a killed server) and is retried; short only in fault tests. */
+      JOB_EXPIRE_SECONDS: envField.number({ context: 'server', access: 'secret', default: 300, int: true, gt: 0 }),
       /** Folder where the local SMTP fake keeps messages; when set, administrators get a mailbox page. */
       MAIL_CAPTURE_DIR: envField.string({ context: 'server', access: 'secret', optional: true }),
     },

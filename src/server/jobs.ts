@@ -5,7 +5,7 @@
  */
 import PgBoss from 'pg-boss';
 import { and, eq } from 'drizzle-orm';
-import { DATABASE_URL } from 'astro:env/server';
+import { DATABASE_URL, JOB_EXPIRE_SECONDS } from 'astro:env/server';
 import { getDb } from './db';
 import { jobs } from '../db/schema';
 import { notFound } from './problem';
@@ -16,7 +16,10 @@ export type ReportProgress = (fraction: number, message?: string) => Promise<voi
 export type JobHandler = (job: JobRow, progress: ReportProgress) => Promise<string | null>;
 
 /** Attempts after the first, and how long an attempt may run before it counts as lost (a killed server). */
-export const JOB_POLICY = { retryLimit: 2, retryDelaySeconds: 2, expireInSeconds: 300 } as const;
+export const JOB_POLICY = { retryLimit: 2, retryDelaySeconds: 2, expireInSeconds: JOB_EXPIRE_SECONDS } as const;
+
+/** Lost attempts are looked for at least twice per expiry (pg-boss's own default is every 120 s). */
+const MAINTENANCE_SECONDS = Math.min(120, Math.max(1, Math.ceil(JOB_POLICY.expireInSeconds / 2)));
 
 const handlers = new Map<string, JobHandler>();
 
@@ -29,7 +32,7 @@ let boss: Promise<PgBoss> | undefined;
 
 function queue(): Promise<PgBoss> {
   boss ??= (async () => {
-    const instance = new PgBoss({ connectionString: DATABASE_URL, schema: 'pgboss', max: 4 });
+    const instance = new PgBoss({ connectionString: DATABASE_URL, schema: 'pgboss', max: 4, maintenanceIntervalSeconds: MAINTENANCE_SECONDS });
     instance.on('error', (error) => console.error('job queue:', error));
     await instance.start();
     return instance;

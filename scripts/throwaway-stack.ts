@@ -1,0 +1,131 @@
+/**
+ * A stack of its own for the fault tests and the HTTP bench: a throwaway PostgreSQL cluster on a free loopback
+ * port with the migrations and the demo laboratory, and the BUILT server as a child process that the caller may
+ * stop, kill and start again. Nothing is shared with the integration stack or the project's own database.
+ */
+import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync, mkdirSync, readdirSync } from 'node:fs';
+import { createServer } from 'node:net';
+import { createDatabase, type Database } from '../src/db/client';
+import { seedDemo } from './demo';
+import { DATA_DIR, ROOT, SERVER_ENTRY } from './local';
+import { applyMigrations } from './migrate';
+import { ensureCluster, removeCluster, type Cluster } from './postgres';
+import { waitForHealth } from './wait-for-health';
+
+/**
+ * A TCP port on 127.0.0.1 that nothing listens on right now.
+ *
+ * @example
+ * const port = await freePort(); // e.g. 41873
+ */
+export async function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const server = createServer();
+    server.once('error', reject);
+    server.listen(0, '127.0.0.1', () => {
+      const address = server.address();
+      server.close(() => resolve(typeof address === 'object' && address ? address.port : 0));
+    });
+  });
+}
+
+export interface ThrowawayStack {
+  cluster: Cluster;
+  /** A small pool of the caller's own on the cluster (for setup and for checking what is stored). */
+  db: Database;
+  baseUrl: string;
+  /** The running server process, or null between a stop and the next start. */
+  readonly server: ChildProcess | null;
+  /** Starts the built server and waits until /api/health answers 200. */
+  startServer(): Promise<void>;
+  /** Sends `signal` to the server and waits for the process to end. */
+  stopServer(signal?: NodeJS.Signals): Promise<void>;
+  /** Server, pool and cluster, all gone. */
+  remove(): Promise<void>;
+}
+
+const PREFIX = 'throwaway-';
+
+const alive = (pid: number) => {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch {
+    return false;
+  }
+};
+
+/** Clusters of runs killed before their clean-up (the process named in the folder is gone). */
+function removeAbandoned() {
+  for (const entry of readdirSync(DATA_DIR)) {
+    const match = entry.match(/^throwaway-[a-z]+-(\d+)$/);
+    if (match && !alive(Number(match[1]))) removeCluster(`${DATA_DIR}/${entry}`);
+  }
+}
+
+/**
+ * Creates the cluster (folder .data/throwaway-<name>-<pid>), migrates it, seeds the demo laboratory and starts the
+ * built server on a free port with `env` added to what the app reads.
+ *
+ * @example
+ * const stack = await startThrowawayStack('faults', { JOB_EXPIRE_SECONDS: '10' });
+ * await fetch(`${stack.baseUrl}/api/health`);
+ * await stack.remove();
+ */
+export async function startThrowawayStack(name: string, env: Record<string, string> = {}): Promise<ThrowawayStack> {
+  if (!existsSync(SERVER_ENTRY)) throw new Error(`No built server at ${SERVER_ENTRY}: run \`npx astro build\` first.`);
+  mkdirSync(DATA_DIR, { recursive: true });
+  removeAbandoned();
+  const dataDir = `${DATA_DIR}/${PREFIX}${name}-${process.pid}`;
+  const cluster = await ensureCluster({ dataDir, port: await freePort(), database: `biaswise_${name}` });
+  const db = createDatabase(cluster.url, 4);
+  await applyMigrations(db);
+  await seedDemo(db);
+  const webPort = await freePort();
+  const baseUrl = `http://127.0.0.1:${webPort}`;
+  let server: ChildProcess | null = null;
+
+  const stopServer = async (signal: NodeJS.Signals = 'SIGTERM') => {
+    const running = server;
+    if (!running) return;
+    server = null;
+    if (running.exitCode !== null || running.signalCode !== null) return;
+    const ended = new Promise<void>((resolve) => running.once('exit', () => resolve()));
+    running.kill(signal);
+    await ended;
+  };
+
+  return {
+    cluster,
+    db,
+    baseUrl,
+    get server() {
+      return server;
+    },
+    async startServer() {
+      if (server) throw new Error('the server is already running');
+      server = spawn(process.execPath, [SERVER_ENTRY], {
+        cwd: ROOT,
+        env: {
+          ...process.env,
+          HOST: '127.0.0.1',
+          PORT: String(webPort),
+          DATABASE_URL: cluster.url,
+          BETTER_AUTH_SECRET: `throwaway-only-secret-${name}-0123456789abcdef`,
+          PUBLIC_BASE_URL: baseUrl,
+          SIGN_IN_LIMIT_PER_MINUTE: '1000',
+          ...env,
+        },
+        stdio: ['ignore', 'ignore', 'inherit'],
+      });
+      await waitForHealth(baseUrl, 60);
+    },
+    stopServer,
+    async remove() {
+      await stopServer('SIGKILL');
+      await db.$client.end().catch(() => {});
+      removeCluster(dataDir);
+    },
+  };
+}

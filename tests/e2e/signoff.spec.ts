@@ -9,20 +9,33 @@ import AxeBuilder from '@axe-core/playwright';
 import { expect, test, type APIRequestContext, type Browser, type Page } from '@playwright/test';
 import { demoPairs } from '../../scripts/demo';
 import type { Role } from '../../src/db/schema';
-import { DEMO_LAB, DEMO_PASSWORD, demoPerson, signInAs, waitForMail } from './helpers';
+import { DEMO_LAB, DEMO_PASSWORD, demoPerson, waitForMail } from './helpers';
 import { E2E_DIRS } from './stack';
 
 const TITLE = 'Bench analyser "Plover" against Heron: sign-off journey';
 const api = `/api/labs/${DEMO_LAB.slug}`;
 
-async function personPage(browser: Browser, role: Role): Promise<Page> {
-  const page = await (await browser.newContext()).newPage();
-  await signInAs(page, role);
-  return page;
+/** Waits until every island on the page has hydrated (Astro drops the `ssr` attribute then). */
+async function hydrated(page: Page) {
+  await page.waitForFunction(() => document.querySelector('astro-island[ssr]') === null);
 }
 
-interface StudyBody {
-  study: { id: string; version: number; state: string; verdict: string | null };
+/** Signs in on the sign-in page once its form is live, as the demo person with that role. */
+async function signInThroughForm(page: Page, role: Role) {
+  const person = demoPerson(role);
+  await hydrated(page);
+  await page.getByLabel('E-mail').fill(person.email);
+  await page.getByLabel('Password').fill(DEMO_PASSWORD);
+  await page.getByLabel('Password').press('Enter');
+}
+
+/** A browser of its own for one demo person, signed in through the sign-in page. */
+async function personPage(browser: Browser, role: Role): Promise<Page> {
+  const page = await (await browser.newContext()).newPage();
+  await page.goto('/sign-in');
+  await signInThroughForm(page, role);
+  await expect(page).toHaveURL(/\/labs(\/|$)/);
+  return page;
 }
 
 /** No serious or critical axe-core violations (WCAG 2.x A and AA rules). */
@@ -30,6 +43,10 @@ async function expectAccessible(page: Page) {
   const results = await new AxeBuilder({ page }).withTags(['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa']).analyze();
   const serious = results.violations.filter((v) => v.impact === 'serious' || v.impact === 'critical');
   expect(serious.map((v) => `${v.id}: ${v.help} (${v.nodes.map((n) => n.target.join(' ')).join(', ')})`)).toEqual([]);
+}
+
+interface StudyBody {
+  study: { id: string; version: number; state: string; verdict: string | null };
 }
 
 /** The JSON of an answer expected to have `status` (its body is shown when it does not). */
@@ -89,8 +106,13 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   const mail = await waitForMail(director.email, `Sign-off requested: ${TITLE}`);
   const link = mail.text.match(/https?:\/\/\S+\/sign\b/)?.[0];
   expect(link, mail.text).toBeTruthy();
-  const directorPage = await personPage(browser, 'medical_director');
+  // Signed out, the link leads through the sign-in page straight back to the study.
+  const directorPage = await (await browser.newContext()).newPage();
   await directorPage.goto(new URL(link!).pathname);
+  await expect(directorPage).toHaveURL(/\/sign-in\?next=/);
+  await signInThroughForm(directorPage, 'medical_director');
+  await expect(directorPage).toHaveURL(new RegExp(`${signPath}$`));
+  await hydrated(directorPage);
   await expect(directorPage.getByRole('heading', { level: 1 })).toContainText(TITLE);
   await expect(directorPage.getByTestId('standing-caution')).toContainText("never replaces, the medical director's judgement");
   await expect(directorPage.getByTestId('decision-level-table')).toBeVisible();
@@ -137,6 +159,7 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   // Quality & regulatory makes the report and downloads the dossier.
   const quality = await personPage(browser, 'quality');
   await quality.goto(`/labs/${DEMO_LAB.slug}/studies/${studyId}/dossier`);
+  await hydrated(quality);
   await quality.getByRole('button', { name: 'Make the report' }).click();
   await expect(quality.getByTestId('report-state')).toContainText('Report ready', { timeout: 120_000 });
   const download = quality.waitForEvent('download');

@@ -58,7 +58,45 @@ export function parseBody<T extends z.ZodType>(schema: T, body: unknown): z.outp
   return result.data;
 }
 
-/** Reads a JSON request body, refusing what is not JSON with a clear 400/415. */
+const LONE_SURROGATE = /[\ud800-\udbff](?![\udc00-\udfff])|(?<![\ud800-\udbff])[\udc00-\udfff]/;
+// Embedding, override and isolate controls make stored text (an audit reason, a sample code) read otherwise than it shows.
+const DIRECTION_CONTROL = /[\u202a-\u202e\u2066-\u2069]/;
+const ONLY_INVISIBLE = /^[\s\p{Cf}]*\p{Cf}[\s\p{Cf}]*$/u;
+
+function textProblem(text: string): string | null {
+  if (text.includes('\u0000')) return 'Remove the NUL character; text cannot hold it.';
+  if (LONE_SURROGATE.test(text)) return 'This is not valid Unicode text (it has a lone surrogate).';
+  if (DIRECTION_CONTROL.test(text)) return 'Remove the text-direction control character; it makes the text read differently from how it shows.';
+  if (ONLY_INVISIBLE.test(text)) return 'This has only invisible characters; type visible text.';
+  return null;
+}
+
+/**
+ * Refuses (422, naming each field) a parsed JSON value with a string or key that no text field takes: a NUL
+ * (PostgreSQL text cannot store it), a lone surrogate, a text-direction control, or only invisible characters.
+ *
+ * @example
+ * refuseUnsafeText({ reason: 'ok\u0000' }); // throws invalid(…, [{ field: 'reason', message: 'Remove the NUL character; …' }])
+ */
+export function refuseUnsafeText(value: unknown): void {
+  const errors: FieldError[] = [];
+  const visit = (item: unknown, path: string[]) => {
+    if (typeof item === 'string') {
+      const message = textProblem(item);
+      if (message) errors.push({ field: path.join('.') || '(body)', message });
+    } else if (item !== null && typeof item === 'object') {
+      for (const [key, child] of Object.entries(item)) {
+        const keyMessage = textProblem(key);
+        if (keyMessage) errors.push({ field: [...path, key].join('.'), message: `The field name: ${keyMessage}` });
+        visit(child, [...path, key]);
+      }
+    }
+  };
+  visit(value, []);
+  if (errors.length > 0) throw invalid(`${errors.length} field${errors.length === 1 ? '' : 's'} need attention: ${errors.map((e) => e.field).join(', ')}.`, errors);
+}
+
+/** Reads a JSON request body, refusing what is not JSON with a clear 400/415, and unsafe text with a 422. */
 export async function readJson(request: Request, maxBytes = 1_000_000): Promise<unknown> {
   const type = request.headers.get('content-type') ?? '';
   if (!type.includes('application/json')) {
@@ -66,9 +104,12 @@ export async function readJson(request: Request, maxBytes = 1_000_000): Promise<
   }
   const text = await request.text();
   if (text.length > maxBytes) throw new Problem(413, 'Body too large', `The body is larger than ${maxBytes} bytes.`);
+  let body: unknown;
   try {
-    return JSON.parse(text);
+    body = JSON.parse(text);
   } catch (error) {
     throw new Problem(400, 'Malformed JSON', `The body is not valid JSON: ${(error as Error).message}`);
   }
+  refuseUnsafeText(body);
+  return body;
 }

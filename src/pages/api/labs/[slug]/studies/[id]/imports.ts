@@ -1,6 +1,6 @@
 import { importSettingsSchema, IMPORT_LIMITS } from '../../../../../../lib/resultSchemas';
 import { endpoint, json, requireLab } from '../../../../../../server/endpoint';
-import { parseBody, Problem } from '../../../../../../server/problem';
+import { parseBody, Problem, refuseUnsafeText } from '../../../../../../server/problem';
 import { importCsv } from '../../../../../../server/imports';
 
 /** Room for the form's boundaries and the settings field beside the file itself. */
@@ -40,7 +40,12 @@ export const POST = endpoint(async ({ locals, params, request }) => {
   const type = request.headers.get('content-type') ?? '';
   if (!type.startsWith('multipart/form-data')) throw new Problem(415, 'Unsupported media type', 'Send the file as multipart/form-data with fields "file" and "settings".');
   const raw = await readLimited(request, IMPORT_LIMITS.bytes + FORM_OVERHEAD);
-  const form = await new Response(raw, { headers: { 'content-type': type } }).formData();
+  let form: FormData;
+  try {
+    form = await new Response(raw, { headers: { 'content-type': type } }).formData();
+  } catch {
+    throw new Problem(400, 'Malformed form', 'The body is not a multipart form; send the fields "file" and "settings".');
+  }
   const file = form.get('file');
   if (!(file instanceof File)) throw new Problem(422, 'Invalid data', 'Attach the CSV file in the field "file".', [{ field: 'file', message: 'Attach the CSV file.' }]);
   let settingsJson: unknown;
@@ -49,6 +54,7 @@ export const POST = endpoint(async ({ locals, params, request }) => {
   } catch {
     throw new Problem(422, 'Invalid data', 'The field "settings" is not valid JSON.', [{ field: 'settings', message: 'Send the column mapping as JSON.' }]);
   }
+  refuseUnsafeText(settingsJson);
   const settings = parseBody(importSettingsSchema, settingsJson);
   const bytes = new Uint8Array(await file.arrayBuffer());
   return json(await importCsv({ userId: user.id, tokenName: null }, lab.id, params.id, { name: file.name, bytes }, settings), 201);

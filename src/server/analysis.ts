@@ -52,14 +52,23 @@ export interface AnalysisSettings {
   units: string;
 }
 
+/** One stored result as the inputs hash sees it. */
+export interface RawResult {
+  procedure: 'comparative' | 'candidate';
+  replicate: number;
+  value: number;
+  censored: '<' | '>' | null;
+}
+
 /** Everything an analysis is computed from; its canonical JSON is what the inputs hash covers. */
 export interface StudyInputs {
   engineVersion: string;
   studyId: string;
   included: IncludedSample[];
-  excluded: { sampleId: string; code: string; reason: string }[];
-  /** Samples the analysis cannot use (a censored or missing result), each with the automatic note. */
-  leftOut: { sampleId: string; code: string; note: string }[];
+  /** Excluded samples with their reasons and their results, so that the hash covers their values too. */
+  excluded: { sampleId: string; code: string; reason: string; results: RawResult[] }[];
+  /** Samples the analysis cannot use (a censored or missing result), each with the automatic note and its results. */
+  leftOut: { sampleId: string; code: string; note: string; results: RawResult[] }[];
   settings: AnalysisSettings;
 }
 
@@ -139,23 +148,24 @@ export async function studyInputs(laboratoryId: string, studyId: string): Promis
 
   const inputs: StudyInputs = { engineVersion: ENGINE_VERSION, studyId: study.id, included: [], excluded: [], leftOut: [], settings: settingsOf(settings) };
   for (const sample of sampleRows) {
+    const own = resultRows.filter((r) => r.sampleId === sample.id);
+    const raw: RawResult[] = own.map(({ procedure, replicate, value, censored }) => ({ procedure, replicate, value, censored }));
     const reason = reasonOf.get(sample.id);
     if (reason !== undefined) {
-      inputs.excluded.push({ sampleId: sample.id, code: sample.code, reason });
+      inputs.excluded.push({ sampleId: sample.id, code: sample.code, reason, results: raw });
       continue;
     }
-    const own = resultRows.filter((r) => r.sampleId === sample.id);
     const censored = own.filter((r) => r.censored !== null);
     if (censored.length > 0) {
       const shown = censored.map((r) => `${r.procedure} replicate ${r.replicate} reported as ${r.censored}${r.value}`).join('; ');
-      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: ${shown} (a value beyond a limit is not a number to fit).` });
+      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: ${shown} (a value beyond a limit is not a number to fit).`, results: raw });
       continue;
     }
     const comparative = own.filter((r) => r.procedure === 'comparative').map((r) => r.value);
     const candidate = own.filter((r) => r.procedure === 'candidate').map((r) => r.value);
     if (comparative.length === 0 || candidate.length === 0) {
       const missing = comparative.length === 0 ? 'comparative' : 'candidate';
-      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: no ${missing} result yet.` });
+      inputs.leftOut.push({ sampleId: sample.id, code: sample.code, note: `Left out of the regression: no ${missing} result yet.`, results: raw });
       continue;
     }
     const entry: IncludedSample = { sampleId: sample.id, code: sample.code, comparative: average(comparative), candidate: average(candidate) };
@@ -165,6 +175,11 @@ export async function studyInputs(laboratoryId: string, studyId: string): Promis
     inputs.included.push(entry);
   }
   return inputs;
+}
+
+async function isSigned(studyId: string): Promise<boolean> {
+  const [row] = await getDb().select({ state: studies.state }).from(studies).where(eq(studies.id, studyId));
+  return row?.state === 'signed';
 }
 
 /**
@@ -253,6 +268,9 @@ async function latestRun(laboratoryId: string, studyId: string): Promise<Analysi
  */
 export async function runAnalysis(actor: { id: string }, laboratoryId: string, studyId: string): Promise<{ run: AnalysisRunRow; reused: boolean }> {
   const inputs = await studyInputs(laboratoryId, studyId);
+  if (await isSigned(inputs.studyId)) {
+    throw new Problem(409, 'Study locked', 'This study is signed and locked; its analysis stays as it was signed. Open an amendment to analyse again.');
+  }
   const inputsHash = inputsHashOf(inputs);
   const latest = await latestRun(laboratoryId, inputs.studyId);
   if (latest && latest.inputsHash === inputsHash) return reuseRun(actor, latest);
@@ -359,7 +377,7 @@ export async function getCurrentAnalysis(laboratoryId: string, studyId: string):
   const run = await latestRun(laboratoryId, inputs.studyId);
   if (!run) return { run: null, current: false, bootstrapDone: false };
   const current = run.inputsHash === inputsHashOf(inputs);
-  if (!current && !run.stale) {
+  if (!current && !run.stale && !(await isSigned(run.studyId))) {
     await getDb().update(analysisRuns).set({ stale: true }).where(eq(analysisRuns.id, run.id));
     run.stale = true;
   }

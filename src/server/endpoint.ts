@@ -2,7 +2,7 @@
 import type { APIContext, APIRoute } from 'astro';
 import { z } from 'zod';
 import { can, type Action } from './permissions';
-import { fieldErrorsFromZod, forbidden, invalid, Problem, problemResponse, unauthenticated } from './problem';
+import { fieldErrorsFromZod, forbidden, invalid, Problem, problemFromDatabase, problemResponse, unauthenticated } from './problem';
 
 const ACTION_WORDS: Record<Action, string> = {
   read: 'read this laboratory',
@@ -54,6 +54,8 @@ export function endpoint(handler: (context: APIContext) => Promise<Response>): A
     } catch (error) {
       if (error instanceof Problem) return problemResponse(error);
       if (error instanceof z.ZodError) return problemResponse(invalid('The data is not valid.', fieldErrorsFromZod(error)));
+      const refused = problemFromDatabase(error);
+      if (refused) return problemResponse(refused);
       console.error(error);
       return problemResponse(new Problem(500, 'Server error', 'Something went wrong on the server; nothing was saved.'));
     }

@@ -209,7 +209,9 @@ describe('analysis runs', () => {
     expect(rerun.status).toBe(201);
     const rerunBody = await rerun.json();
     const inputs = (rerunBody.run.results as StoredResults).inputs;
-    expect(inputs.excluded).toEqual([{ sampleId, code: 'EM-0042', reason: 'Candidate result 34 % low; sample mix-up suspected' }]);
+    expect(inputs.excluded).toEqual([{ sampleId, code: 'EM-0042', reason: 'Candidate result 34 % low; sample mix-up suspected', results: expect.any(Array) }]);
+    // The hash covers the excluded sample's own results too.
+    expect(inputs.excluded[0].results).toHaveLength(4);
     expect(rerunBody.run.results.analysis.n).toBe(59);
     expect(rerunBody.run.results.analysis.sampleIds).not.toContain('EM-0042');
 

@@ -174,6 +174,13 @@ describe('submit for sign-off, e-mail, sign', () => {
     const again = await study.director.post(`${study.base}/sign`, { ...body, version: signedStudy.version });
     expect(again.status).toBe(409);
     expect((await problemOf(again)).detail).toMatch(/this study is signed/);
+    // Reading the analysis leaves the signed run untouched; running it again is refused, not attempted.
+    expect((await study.scientist.get(`${study.base}/analysis`)).status).toBe(200);
+    const rerun = await study.scientist.post(`${study.base}/analysis`, {});
+    expect(rerun.status).toBe(409);
+    expect((await problemOf(rerun)).detail).toContain('signed and locked');
+    const [signedRun] = await getDb().select().from(analysisRuns).where(eq(analysisRuns.id, study.run.id));
+    expect(signedRun.stale).toBe(false);
     const lockedPage = await (await study.scientist.get(`/labs/${lab.slug}/studies/${study.studyId}/sign`)).text();
     expect(lockedPage).toContain('Signed and locked');
     expect(lockedPage).toContain('data-testid="signature-table"');

@@ -36,7 +36,7 @@ function alive(pid: number) {
 /** Clusters left by runs that were killed before their teardown (their vitest process is gone). */
 function removeAbandonedStacks() {
   for (const entry of readdirSync(DATA_DIR)) {
-    const match = entry.match(/^test-integration-(?:mail-)?(\d+)$/);
+    const match = entry.match(/^test-(?:integration|recovery)-(?:mail-)?(\d+)$/);
     if (!match || alive(Number(match[1]))) continue;
     if (entry.includes('-mail-')) rmSync(`${DATA_DIR}/${entry}`, { recursive: true, force: true });
     else removeCluster(`${DATA_DIR}/${entry}`);

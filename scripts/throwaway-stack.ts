@@ -7,7 +7,8 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync, mkdirSync, readdirSync } from 'node:fs';
 import { createServer } from 'node:net';
 import { createDatabase, type Database } from '../src/db/client';
-import { seedDemo } from './demo';
+import { DEMO_LAB, DEMO_STUDY_TITLE, seedDemo } from './demo';
+import type { HttpSession } from './http-session';
 import { DATA_DIR, ROOT, SERVER_ENTRY } from './local';
 import { applyMigrations } from './migrate';
 import { ensureCluster, removeCluster, type Cluster } from './postgres';
@@ -65,15 +66,18 @@ function removeAbandoned() {
 }
 
 /**
- * Creates the cluster (folder .data/throwaway-<name>-<pid>), migrates it, seeds the demo laboratory and starts the
- * built server on a free port with `env` added to what the app reads.
+ * Creates the cluster (folder .data/throwaway-<name>-<pid>), migrates it, seeds the demo laboratory and prepares the
+ * built server on a free port with `env` added to what the app reads; `serverStderr` 'ignore' keeps its log out of
+ * the caller's output.
  *
  * @example
- * const stack = await startThrowawayStack('faults', { JOB_EXPIRE_SECONDS: '10' });
+ * const stack = await startThrowawayStack('faults', { env: { JOB_EXPIRE_SECONDS: '10' } });
+ * await stack.startServer();
  * await fetch(`${stack.baseUrl}/api/health`);
  * await stack.remove();
  */
-export async function startThrowawayStack(name: string, env: Record<string, string> = {}): Promise<ThrowawayStack> {
+export async function startThrowawayStack(name: string, options: { env?: Record<string, string>; serverStderr?: 'inherit' | 'ignore' } = {}): Promise<ThrowawayStack> {
+  const { env = {}, serverStderr = 'inherit' } = options;
   if (!existsSync(SERVER_ENTRY)) throw new Error(`No built server at ${SERVER_ENTRY}: run \`npx astro build\` first.`);
   mkdirSync(DATA_DIR, { recursive: true });
   removeAbandoned();
@@ -117,7 +121,7 @@ export async function startThrowawayStack(name: string, env: Record<string, stri
           SIGN_IN_LIMIT_PER_MINUTE: '1000',
           ...env,
         },
-        stdio: ['ignore', 'ignore', 'inherit'],
+        stdio: ['ignore', 'ignore', serverStderr],
       });
       await waitForHealth(baseUrl, 60);
     },
@@ -128,4 +132,36 @@ export async function startThrowawayStack(name: string, env: Record<string, stri
       removeCluster(dataDir);
     },
   };
+}
+
+async function okJson<T>(response: Response, what: string): Promise<T> {
+  if (!response.ok) throw new Error(`${what} failed: ${response.status} ${await response.text()}`);
+  return (await response.json()) as T;
+}
+
+/**
+ * Opens a study on the demo's approved protocol version through the API and starts collection, as the lab
+ * scientist would; returns its id.
+ *
+ * @example
+ * const studyId = await openStudyOnDemoProtocol(scientist, 'Fault: database stopped during an import');
+ */
+export async function openStudyOnDemoProtocol(scientist: HttpSession, title: string): Promise<string> {
+  const api = `/api/labs/${DEMO_LAB.slug}`;
+  const { studies } = await okJson<{ studies: { id: string; title: string }[] }>(await scientist.get(`${api}/studies`), 'listing studies');
+  const demo = studies.find((s) => s.title === DEMO_STUDY_TITLE);
+  if (!demo) throw new Error('the demo collecting study is missing');
+  const { study: pinned } = await okJson<{ study: { protocolVersionId: string } }>(await scientist.get(`${api}/studies/${demo.id}`), 'reading the demo study');
+  const { study } = await okJson<{ study: { id: string; version: number } }>(
+    await scientist.post(`${api}/studies`, {
+      title,
+      protocolVersionId: pinned.protocolVersionId,
+      candidate: { instrument: 'Bench analyser "Wren" (serial W-11)', reagentLot: 'LOT-C1', softwareVersion: '2.0' },
+      comparative: { instrument: 'Core analyser "Lark" (serial L-7)', reagentLot: 'LOT-R9', softwareVersion: '5.1' },
+      technicianIds: [],
+    }),
+    'opening a study',
+  );
+  await okJson(await scientist.post(`${api}/studies/${study.id}/transitions`, { transition: 'start_collecting', version: study.version }), 'starting collection');
+  return study.id;
 }

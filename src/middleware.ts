@@ -1,6 +1,7 @@
 import { defineMiddleware } from 'astro:middleware';
 import { PUBLIC_BASE_URL } from 'astro:env/server';
 import { getAuth } from './server/auth';
+import { outageProblem } from './server/health';
 import { labBySlug, laboratoryForToken, membershipsOf } from './server/laboratories';
 import { notFound, problemResponse, Problem, unauthenticated } from './server/problem';
 import { ensureWorkers } from './server/workers';
@@ -52,11 +53,19 @@ export const onRequest = defineMiddleware(async (context, next) => {
     return next();
   }
 
-  const current = await getAuth().api.getSession({ headers: request.headers });
-  if (current) {
-    locals.user = current.user;
-    locals.session = current.session;
-    locals.memberships = await membershipsOf(current.user.id);
+  try {
+    const current = await getAuth().api.getSession({ headers: request.headers });
+    if (current) {
+      locals.user = current.user;
+      locals.session = current.session;
+      locals.memberships = await membershipsOf(current.user.id);
+    }
+  } catch (error) {
+    // With the database away, say so (503) rather than answer an empty 500.
+    const outage = await outageProblem();
+    if (!outage) throw error;
+    if (isApi) return problemResponse(outage);
+    return new Response(outage.detail, { status: 503, headers: { 'content-type': 'text/plain; charset=utf-8', 'cache-control': 'no-store' } });
   }
 
   if (labRoute) {

@@ -1,6 +1,7 @@
 /** Keeps endpoints thin: access checks, and every thrown Problem or zod error answered as problem+json. */
 import type { APIContext, APIRoute } from 'astro';
 import { z } from 'zod';
+import { outageProblem } from './health';
 import { can, type Action } from './permissions';
 import { fieldErrorsFromZod, forbidden, invalid, Problem, problemFromDatabase, problemResponse, unauthenticated } from './problem';
 
@@ -57,7 +58,7 @@ export function endpoint(handler: (context: APIContext) => Promise<Response>): A
       const refused = problemFromDatabase(error);
       if (refused) return problemResponse(refused);
       console.error(error);
-      return problemResponse(new Problem(500, 'Server error', 'Something went wrong on the server; nothing was saved.'));
+      return problemResponse((await outageProblem()) ?? new Problem(500, 'Server error', 'Something went wrong on the server; nothing was saved.'));
     }
   };
 }

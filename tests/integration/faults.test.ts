@@ -7,7 +7,7 @@ import pg from 'pg';
 import { DEMO_LAB, DEMO_PASSWORD, DEMO_PEOPLE, DEMO_STUDY_TITLE } from '../../scripts/demo';
 import { signedInSession, type HttpSession } from '../../scripts/http-session';
 import { ensureCluster, stopCluster } from '../../scripts/postgres';
-import { startThrowawayStack, type ThrowawayStack } from '../../scripts/throwaway-stack';
+import { openStudyOnDemoProtocol, startThrowawayStack, type ThrowawayStack } from '../../scripts/throwaway-stack';
 
 /** Short enough that the attempt a killed server was running is retried within the test. */
 const JOB_EXPIRE_SECONDS = 10;
@@ -45,7 +45,7 @@ async function countFor(table: 'samples' | 'results' | 'import_logs' | 'attachme
 }
 
 beforeAll(async () => {
-  stack = await startThrowawayStack('faults', { JOB_EXPIRE_SECONDS: String(JOB_EXPIRE_SECONDS) });
+  stack = await startThrowawayStack('faults', { env: { JOB_EXPIRE_SECONDS: String(JOB_EXPIRE_SECONDS) } });
   await stack.startServer();
   scientist = await signInAs('lab_scientist');
   technician = await signInAs('technician');
@@ -56,25 +56,6 @@ beforeAll(async () => {
 afterAll(async () => {
   await stack?.remove();
 });
-
-/** A collecting study on the demo protocol, opened and started by the lab scientist through the API. */
-async function openCollectingStudy(title: string): Promise<string> {
-  const { studies } = await okJson<{ studies: { id: string; title: string }[] }>(await scientist.get(`${API}/studies`), 'listing studies');
-  const demo = studies.find((s) => s.title === DEMO_STUDY_TITLE)!;
-  const { study: pinned } = await okJson<{ study: { protocolVersionId: string } }>(await scientist.get(`${API}/studies/${demo.id}`), 'reading the demo study');
-  const { study } = await okJson<{ study: { id: string; version: number } }>(
-    await scientist.post(`${API}/studies`, {
-      title,
-      protocolVersionId: pinned.protocolVersionId,
-      candidate: { instrument: 'Bench analyser "Wren" (serial W-11)', reagentLot: 'LOT-C1', softwareVersion: '2.0' },
-      comparative: { instrument: 'Core analyser "Lark" (serial L-7)', reagentLot: 'LOT-R9', softwareVersion: '5.1' },
-      technicianIds: [],
-    }),
-    'opening a study',
-  );
-  await okJson(await scientist.post(`${API}/studies/${study.id}/transitions`, { transition: 'start_collecting', version: study.version }), 'starting collection');
-  return study.id;
-}
 
 /** Invented duplicate pairs inside the glucose measuring interval, one sample per row. */
 function largeCsv(rows: number): Uint8Array {
@@ -102,7 +83,7 @@ async function health() {
 
 describe('PostgreSQL stopped in the middle of an import', () => {
   it('fails the import cleanly, reports the outage, keeps no partial rows and recovers when the database returns', async () => {
-    const studyId = await openCollectingStudy('Fault: database stopped during an import');
+    const studyId = await openStudyOnDemoProtocol(scientist, 'Fault: database stopped during an import');
     const before = { samples: await countFor('samples', studyId), results: await countFor('results', studyId), logs: await countFor('import_logs', studyId), files: await countFor('attachments', studyId) };
     const file = largeCsv(IMPORT_ROWS);
     const serverPid = stack.server!.pid;
@@ -128,18 +109,18 @@ describe('PostgreSQL stopped in the middle of an import', () => {
     await holder.end().catch(() => {});
 
     const failed = await answer;
-    expect(failed.status).toBeGreaterThanOrEqual(500);
+    expect(failed.status).toBe(503);
     expect(failed.headers.get('content-type')).toContain('application/problem+json');
-    const problem = await failed.json();
-    expect(problem.status).toBe(failed.status);
-    expect(problem.detail).toMatch(/nothing was saved/i);
+    expect(await failed.json()).toMatchObject({ status: 503, title: 'Database unavailable', detail: expect.stringMatching(/nothing was saved/) });
 
     const down = await health();
     expect(down.status).toBe(503);
     expect(down.body.database.status).toBe('down');
-    // A signed-in page request while the database is away is answered, not left hanging.
-    const listing = await technician.request('GET', `${API}/studies`, undefined);
-    expect(listing.status).toBeGreaterThanOrEqual(500);
+    // A signed-in request while the database is away is answered with the outage, not left hanging.
+    const listing = await technician.get(`${API}/studies`);
+    expect(listing.status).toBe(503);
+    expect(listing.headers.get('content-type')).toContain('application/problem+json');
+    expect((await listing.json()).title).toBe('Database unavailable');
 
     await ensureCluster({ dataDir: stack.cluster.dataDir, port: stack.cluster.port, database: stack.cluster.database });
     const back = await until(

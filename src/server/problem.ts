@@ -80,19 +80,22 @@ function textProblem(text: string): string | null {
  */
 export function refuseUnsafeText(value: unknown): void {
   const errors: FieldError[] = [];
-  const visit = (item: unknown, path: string[]) => {
+  // A loop, not recursion: a body nested a hundred thousand deep must not overflow the stack.
+  const pending: { item: unknown; path: string }[] = [{ item: value, path: '' }];
+  while (pending.length > 0) {
+    const { item, path } = pending.pop()!;
     if (typeof item === 'string') {
       const message = textProblem(item);
-      if (message) errors.push({ field: path.join('.') || '(body)', message });
+      if (message) errors.push({ field: path || '(body)', message });
     } else if (item !== null && typeof item === 'object') {
       for (const [key, child] of Object.entries(item)) {
+        const childPath = path ? `${path}.${key}` : key;
         const keyMessage = textProblem(key);
-        if (keyMessage) errors.push({ field: [...path, key].join('.'), message: `The field name: ${keyMessage}` });
-        visit(child, [...path, key]);
+        if (keyMessage) errors.push({ field: childPath, message: `The field name: ${keyMessage}` });
+        pending.push({ item: child, path: childPath });
       }
     }
-  };
-  visit(value, []);
+  }
   if (errors.length > 0) throw invalid(`${errors.length} field${errors.length === 1 ? '' : 's'} need attention: ${errors.map((e) => e.field).join(', ')}.`, errors);
 }
 
@@ -112,22 +115,4 @@ export async function readJson(request: Request, maxBytes = 1_000_000): Promise<
   }
   refuseUnsafeText(body);
   return body;
-}
-
-/** PostgreSQL's check_violation (SQLSTATE 23514): CHECK constraints, and the lock and freeze triggers. */
-const CHECK_VIOLATION = '23514';
-
-/**
- * A refusal by the database itself, as a Problem: the lock of a signed study or an approved protocol (409), or a
- * CHECK constraint (422). Services refuse such writes before they reach the database; this is the last line.
- * Returns null for any other error.
- */
-export function problemFromDatabase(error: unknown): Problem | null {
-  const cause = (error as { cause?: { code?: string; message?: string } }).cause ?? (error as { code?: string; message?: string });
-  if (cause?.code !== CHECK_VIOLATION) return null;
-  const message = cause.message ?? '';
-  if (/signed and locked|already signed|append-only|is approved and cannot change/i.test(message)) {
-    return new Problem(409, 'Locked', `The database refused the change: ${message}. Nothing was saved.`);
-  }
-  return new Problem(422, 'Invalid data', `The database refused a value: ${message}. Nothing was saved.`);
 }

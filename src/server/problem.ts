@@ -116,3 +116,21 @@ export async function readJson(request: Request, maxBytes = 1_000_000): Promise<
   refuseUnsafeText(body);
   return body;
 }
+
+/** PostgreSQL's check_violation (SQLSTATE 23514): CHECK constraints, and the lock and freeze triggers. */
+const CHECK_VIOLATION = '23514';
+
+/**
+ * A refusal by the database itself, as a Problem: the lock of a signed study or an approved protocol (409), or a
+ * CHECK constraint (422). Services refuse such writes before they reach the database; this is the last line.
+ * Returns null for any other error.
+ */
+export function problemFromDatabase(error: unknown): Problem | null {
+  const cause = (error as { cause?: { code?: string; message?: string } }).cause ?? (error as { code?: string; message?: string });
+  if (cause?.code !== CHECK_VIOLATION) return null;
+  const message = cause.message ?? '';
+  if (/signed and locked|already signed|append-only|is approved and cannot change/i.test(message)) {
+    return new Problem(409, 'Locked', `The database refused the change: ${message}. Nothing was saved.`);
+  }
+  return new Problem(422, 'Invalid data', `The database refused a value: ${message}. Nothing was saved.`);
+}

@@ -244,6 +244,8 @@ describe('CSV import uploads', () => {
     ['a form without the file', () => ({ body: form(null, settings) }), 422, 'file'],
     ['settings that are not JSON', () => ({ body: form(goodCsv(), '{mapping') }), 422, 'settings'],
     ['settings with a NUL in a column name', () => ({ body: form(goodCsv(), settings.replace('Sample', 'Sam\\u0000ple')) }), 422, 'mapping.sampleCode'],
+    ['a file with a NUL in a sample code', () => ({ body: form(new Blob(['Sample,Comparative 1,Comparative 2,Candidate 1,Candidate 2\nCSV\u0000-1,100,101,102,103\n'], { type: 'text/csv' }), settings) }), 422],
+    ['a file that is not UTF-8 text', () => ({ body: form(new Blob([new Uint8Array([0xff, 0xfe, 0x00, 0xd8, 0x41, 0x00, 0x0a, 0x00])], { type: 'text/csv' }), settings) }), 422],
     ['a multipart type with a body that is not a form', () => ({ body: 'this is not a multipart body', type: 'multipart/form-data; boundary=xyz' }), 400],
     ['a multipart type without a boundary', () => ({ body: '--xyz\r\n\r\n', type: 'multipart/form-data' }), 400],
   ])('refuses %s with a 4xx problem+json and writes nothing', async (_what, make, status, field) => {

@@ -75,7 +75,8 @@ function run(bin: string, program: string, args: string[], options: { allowFailu
   return result;
 }
 
-function pidIsAlive(pid: number): boolean {
+/** Whether a process with this id exists (signal 0 probes without sending anything). */
+export function processAlive(pid: number): boolean {
   try {
     process.kill(pid, 0);
     return true;
@@ -89,7 +90,7 @@ function clearStalePidFile(dataDir: string) {
   const pidFile = join(dataDir, 'postmaster.pid');
   if (!existsSync(pidFile)) return;
   const pid = Number(readFileSync(pidFile, 'utf8').split('\n')[0]);
-  const alive = Number.isInteger(pid) && pid > 0 && pidIsAlive(pid);
+  const alive = Number.isInteger(pid) && pid > 0 && processAlive(pid);
   const isPostgres =
     alive && existsSync(`/proc/${pid}/comm`) && readFileSync(`/proc/${pid}/comm`, 'utf8').trim().startsWith('postgres');
   if (!isPostgres) {

@@ -4,8 +4,7 @@
  * stop, kill and start again. Nothing is shared with the integration stack or the project's own database.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
-import { existsSync, mkdirSync, readdirSync } from 'node:fs';
-import { createServer } from 'node:net';
+import { existsSync, mkdirSync } from 'node:fs';
 import { createDatabase, type Database } from '../src/db/client';
 import { DEMO_LAB, DEMO_STUDY_TITLE, seedDemo } from './demo';
 import type { HttpSession } from './http-session';
@@ -13,23 +12,7 @@ import { DATA_DIR, ROOT, SERVER_ENTRY } from './local';
 import { applyMigrations } from './migrate';
 import { ensureCluster, removeCluster, type Cluster } from './postgres';
 import { waitForHealth } from './wait-for-health';
-
-/**
- * A TCP port on 127.0.0.1 that nothing listens on right now.
- *
- * @example
- * const port = await freePort(); // e.g. 41873
- */
-export async function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const address = server.address();
-      server.close(() => resolve(typeof address === 'object' && address ? address.port : 0));
-    });
-  });
-}
+import { freePort, removeAbandoned } from './stacks';
 
 export interface ThrowawayStack {
   cluster: Cluster;
@@ -48,23 +31,6 @@ export interface ThrowawayStack {
 
 const PREFIX = 'throwaway-';
 
-const alive = (pid: number) => {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
-};
-
-/** Clusters of runs killed before their clean-up (the process named in the folder is gone). */
-function removeAbandoned() {
-  for (const entry of readdirSync(DATA_DIR)) {
-    const match = entry.match(/^throwaway-[a-z]+-(\d+)$/);
-    if (match && !alive(Number(match[1]))) removeCluster(`${DATA_DIR}/${entry}`);
-  }
-}
-
 /**
  * Creates the cluster (folder .data/throwaway-<name>-<pid>), migrates it, seeds the demo laboratory and prepares the
  * built server on a free port with `env` added to what the app reads; `serverStderr` 'ignore' keeps its log out of
@@ -80,7 +46,7 @@ export async function startThrowawayStack(name: string, options: { env?: Record<
   const { env = {}, serverStderr = 'inherit' } = options;
   if (!existsSync(SERVER_ENTRY)) throw new Error(`No built server at ${SERVER_ENTRY}: run \`npx astro build\` first.`);
   mkdirSync(DATA_DIR, { recursive: true });
-  removeAbandoned();
+  removeAbandoned(/^throwaway-[a-z]+-(\d+)$/);
   const dataDir = `${DATA_DIR}/${PREFIX}${name}-${process.pid}`;
   const cluster = await ensureCluster({ dataDir, port: await freePort(), database: `biaswise_${name}` });
   const db = createDatabase(cluster.url, 4);

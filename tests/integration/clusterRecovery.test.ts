@@ -3,24 +3,14 @@
  * postmaster.pid behind), starting again reuses the cluster and every committed row is still there.
  */
 import { readFileSync } from 'node:fs';
-import { createServer } from 'node:net';
 import pg from 'pg';
 import { afterAll, describe, expect, it } from 'vitest';
 import { DATA_DIR } from '../../scripts/local';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
+import { freePort } from '../../scripts/stacks';
 
 const dataDir = `${DATA_DIR}/test-recovery-${process.pid}`;
 afterAll(() => removeCluster(dataDir));
-
-async function freePort(): Promise<number> {
-  return new Promise((resolve) => {
-    const server = createServer();
-    server.listen(0, '127.0.0.1', () => {
-      const address = server.address();
-      server.close(() => resolve(typeof address === 'object' && address ? address.port : 0));
-    });
-  });
-}
 
 async function query(url: string, text: string) {
   const client = new pg.Client({ connectionString: url });

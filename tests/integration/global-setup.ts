@@ -4,48 +4,18 @@
  * environment variables the app reads, plus TEST_BASE_URL; everything is removed at the end.
  */
 import { spawn } from 'node:child_process';
-import { existsSync, mkdirSync, readdirSync, rmSync } from 'node:fs';
-import { createServer } from 'node:net';
+import { existsSync, mkdirSync, rmSync } from 'node:fs';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
 import { DATA_DIR, ROOT, SERVER_ENTRY } from '../../scripts/local';
 import { startSmtpFake } from '../../scripts/smtp-fake';
 import { waitForHealth } from '../../scripts/wait-for-health';
-
-async function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const server = createServer();
-    server.once('error', reject);
-    server.listen(0, '127.0.0.1', () => {
-      const address = server.address();
-      server.close(() => resolve(typeof address === 'object' && address ? address.port : 0));
-    });
-  });
-}
-
-function alive(pid: number) {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-/** Clusters left by runs that were killed before their teardown (their vitest process is gone). */
-function removeAbandonedStacks() {
-  for (const entry of readdirSync(DATA_DIR)) {
-    const match = entry.match(/^test-(?:integration|recovery)-(?:mail-)?(\d+)$/);
-    if (!match || alive(Number(match[1]))) continue;
-    if (entry.includes('-mail-')) rmSync(`${DATA_DIR}/${entry}`, { recursive: true, force: true });
-    else removeCluster(`${DATA_DIR}/${entry}`);
-  }
-}
+import { freePort, removeAbandoned } from '../../scripts/stacks';
 
 export default async function setup() {
   mkdirSync(DATA_DIR, { recursive: true });
-  removeAbandonedStacks();
+  removeAbandoned(/^test-(?:integration|recovery)-(?:mail-)?(\d+)$/);
   const entry = SERVER_ENTRY;
   if (!existsSync(entry)) throw new Error('Integration tests need the built server: run `npx astro build` first (npm test does).');
   const dataDir = `${DATA_DIR}/test-integration-${process.pid}`;

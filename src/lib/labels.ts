@@ -8,6 +8,9 @@ export const STATE_LABELS: Record<StudyState, string> = {
   signed: 'Signed',
 };
 
+/** The icon beside each state's word; plain geometric shapes that the shipped font and its fallbacks all draw. */
+export const STATE_ICONS: Record<StudyState, string> = { draft: '✎', collecting: '◔', in_review: '◷', signed: '✔' };
+
 export const VERDICT_LABELS: Record<Verdict, { icon: string; word: string }> = {
   accepted: { icon: '✔', word: 'Accepted' },
   accepted_with_conditions: { icon: '◐', word: 'Accepted with conditions' },

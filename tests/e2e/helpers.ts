@@ -17,6 +17,8 @@ export function demoPerson(role: Role) {
 export async function signInAs(page: Page, role: Role) {
   const person = demoPerson(role);
   await page.goto('/sign-in');
+  // The form only submits once its island is live (before that its button is disabled).
+  await expect(page.getByRole('button', { name: 'Sign in' })).toBeEnabled();
   await page.getByLabel('E-mail').fill(person.email);
   await page.getByLabel('Password').fill(DEMO_PASSWORD);
   await page.getByLabel('Password').press('Enter');

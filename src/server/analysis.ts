@@ -7,7 +7,7 @@
  */
 import { and, asc, desc, eq, isNull, ne, sql } from 'drizzle-orm';
 import { getDb } from './db';
-import { analysisRuns, auditEvents, exclusions, results, samples, studies, user } from '../db/schema';
+import { analysisRuns, auditEvents, exclusions, protocolVersions, results, samples, studies, user, type StudyState } from '../db/schema';
 import { recordAudit } from './audit';
 import { enqueueJob, getJob, type JobRow } from './jobs';
 import { invalid, notFound, Problem } from './problem';
@@ -129,24 +129,30 @@ function settingsOf(settings: ProtocolSettings): AnalysisSettings {
  */
 export async function studyInputs(laboratoryId: string, studyId: string): Promise<StudyInputs> {
   const { study, settings } = await getStudy(laboratoryId, studyId);
-  const db = getDb();
+  return inputsOf(getDb(), laboratoryId, study.id, settings);
+}
+
+type Reader = ReturnType<typeof getDb> | Parameters<Parameters<ReturnType<typeof getDb>['transaction']>[0]>[0];
+
+/** studyInputs of a study already found, read through `db` (a transaction's snapshot, or the pool). */
+async function inputsOf(db: Reader, laboratoryId: string, studyId: string, settings: ProtocolSettings): Promise<StudyInputs> {
   const sampleRows = await db
     .select({ id: samples.id, code: samples.code })
     .from(samples)
-    .where(and(eq(samples.laboratoryId, laboratoryId), eq(samples.studyId, study.id)))
+    .where(and(eq(samples.laboratoryId, laboratoryId), eq(samples.studyId, studyId)))
     .orderBy(asc(samples.position), asc(samples.code));
   const resultRows = await db
     .select({ sampleId: results.sampleId, procedure: results.procedure, replicate: results.replicate, value: results.value, censored: results.censored })
     .from(results)
-    .where(and(eq(results.laboratoryId, laboratoryId), eq(results.studyId, study.id)))
+    .where(and(eq(results.laboratoryId, laboratoryId), eq(results.studyId, studyId)))
     .orderBy(asc(results.replicate));
   const standing = await db
     .select({ sampleId: exclusions.sampleId, reason: exclusions.reason })
     .from(exclusions)
-    .where(and(eq(exclusions.laboratoryId, laboratoryId), eq(exclusions.studyId, study.id), isNull(exclusions.revokedAt)));
+    .where(and(eq(exclusions.laboratoryId, laboratoryId), eq(exclusions.studyId, studyId), isNull(exclusions.revokedAt)));
   const reasonOf = new Map(standing.map((e) => [e.sampleId, e.reason]));
 
-  const inputs: StudyInputs = { engineVersion: ENGINE_VERSION, studyId: study.id, included: [], excluded: [], leftOut: [], settings: settingsOf(settings) };
+  const inputs: StudyInputs = { engineVersion: ENGINE_VERSION, studyId, included: [], excluded: [], leftOut: [], settings: settingsOf(settings) };
   for (const sample of sampleRows) {
     const own = resultRows.filter((r) => r.sampleId === sample.id);
     const raw: RawResult[] = own.map(({ procedure, replicate, value, censored }) => ({ procedure, replicate, value, censored }));
@@ -191,6 +197,80 @@ async function isSigned(studyId: string): Promise<boolean> {
 export function inputsHashOf(inputs: StudyInputs): string {
   return sha256(canonicalJson(inputs));
 }
+
+/** A small least-recently-used map: a Map keeps insertion order, so the first key is the oldest. */
+class Recent<V> {
+  private readonly entries = new Map<string, V>();
+  constructor(private readonly capacity: number) {}
+  get(key: string): V | undefined {
+    const value = this.entries.get(key);
+    if (value !== undefined) {
+      this.entries.delete(key);
+      this.entries.set(key, value);
+    }
+    return value;
+  }
+  set(key: string, value: V): void {
+    this.entries.delete(key);
+    this.entries.set(key, value);
+    if (this.entries.size > this.capacity) this.entries.delete(this.entries.keys().next().value!);
+  }
+}
+
+/**
+ * Inputs hash by data fingerprint. The fingerprint is an md5 over every column studyInputs reads (samples, results,
+ * standing exclusions, the protocol version's settings), computed by the database on each call, so a change made
+ * through any server (or straight in the database) gives a new key at once; the hash is a pure function of it.
+ */
+const inputsHashByFingerprint = new Recent<string>(2000);
+
+/**
+ * The study (scoped by laboratory) with the fingerprint of the data its canonical inputs are built from.
+ * Each part is aggregated in a fixed order (by id) as JSON, so that no two different contents give the same text.
+ */
+async function studyFingerprint(db: Reader, laboratoryId: string, studyId: string) {
+  if (!isUuid(studyId)) throw notFound('study');
+  const rows = await db.execute<{ id: string; title: string; state: StudyState; settings: ProtocolSettings; fingerprint: string }>(sql`
+    select s.id, s.title, s.state, pv.settings, md5(json_build_array(
+      s.protocol_version_id,
+      pv.settings,
+      (select json_agg(json_build_array(m.id, m.code, m.position) order by m.id)
+         from ${samples} m where m.laboratory_id = s.laboratory_id and m.study_id = s.id),
+      (select json_agg(json_build_array(r.id, r.sample_id, r.procedure, r.replicate, r.value, r.censored) order by r.id)
+         from ${results} r where r.laboratory_id = s.laboratory_id and r.study_id = s.id),
+      (select json_agg(json_build_array(e.id, e.sample_id, e.reason) order by e.id)
+         from ${exclusions} e where e.laboratory_id = s.laboratory_id and e.study_id = s.id and e.revoked_at is null)
+    )::text) as fingerprint
+    from ${studies} s join ${protocolVersions} pv on pv.id = s.protocol_version_id
+    where s.id = ${studyId} and s.laboratory_id = ${laboratoryId}`);
+  const [row] = rows.rows;
+  if (!row) throw notFound('study');
+  return row;
+}
+
+/**
+ * The study and the hash of its current canonical inputs (inputsHashOf(studyInputs(…))), rebuilt only when the
+ * study's data fingerprint is one not seen before.
+ */
+async function currentInputsHash(laboratoryId: string, studyId: string) {
+  const found = await studyFingerprint(getDb(), laboratoryId, studyId);
+  const study = { id: found.id, title: found.title, state: found.state };
+  const known = inputsHashByFingerprint.get(fingerprintKey(found));
+  if (known !== undefined) return { study, inputsHash: known };
+  // Fingerprint and inputs from one snapshot, so that the fingerprint stored describes exactly the data hashed.
+  const inputsHash = await getDb().transaction(
+    async (tx) => {
+      const snapshot = await studyFingerprint(tx, laboratoryId, studyId);
+      const hash = inputsHashOf(await inputsOf(tx, laboratoryId, snapshot.id, snapshot.settings));
+      inputsHashByFingerprint.set(fingerprintKey(snapshot), hash);
+      return hash;
+    },
+    { isolationLevel: 'repeatable read', accessMode: 'read only' },
+  );
+  return { study, inputsHash };
+}
+
+const fingerprintKey = (found: { id: string; fingerprint: string }) => `${ENGINE_VERSION}:${found.id}:${found.fingerprint}`;
 
 /**
  * The engine's input for a study: λ given, or from the duplicates when the protocol says so and every analysed
@@ -373,40 +453,97 @@ export async function getRun(runId: string): Promise<AnalysisRunRow | undefined>
  * const { run, current, bootstrapDone } = await getCurrentAnalysis(lab.id, studyId);
  */
 export async function getCurrentAnalysis(laboratoryId: string, studyId: string): Promise<{ run: AnalysisRunRow | null; current: boolean; bootstrapDone: boolean }> {
-  const inputs = await studyInputs(laboratoryId, studyId);
-  const run = await latestRun(laboratoryId, inputs.studyId);
+  const { study, inputsHash } = await currentInputsHash(laboratoryId, studyId);
+  const run = await latestRun(laboratoryId, study.id);
   if (!run) return { run: null, current: false, bootstrapDone: false };
-  const current = run.inputsHash === inputsHashOf(inputs);
-  if (!current && !run.stale && !(await isSigned(run.studyId))) {
+  const current = await markStaleUnlessCurrent(run, inputsHash, study.state);
+  return { run, current, bootstrapDone: (run.results as StoredResults).bootstrap.status === 'done' };
+}
+
+/** Whether the run is current; one that is not is marked stale (a signed study's run stays as it was signed). */
+async function markStaleUnlessCurrent(run: { id: string; inputsHash: string; stale: boolean }, inputsHash: string, state: StudyState): Promise<boolean> {
+  const current = run.inputsHash === inputsHash;
+  if (!current && !run.stale && state !== 'signed') {
     await getDb().update(analysisRuns).set({ stale: true }).where(eq(analysisRuns.id, run.id));
     run.stale = true;
   }
-  return { run, current, bootstrapDone: (run.results as StoredResults).bootstrap.status === 'done' };
+  return current;
+}
+
+const runHeadColumns = {
+  id: analysisRuns.id,
+  inputsHash: analysisRuns.inputsHash,
+  engineVersion: analysisRuns.engineVersion,
+  createdAt: analysisRuns.createdAt,
+  stale: analysisRuns.stale,
+  // PostgreSQL gives every new version of a row a new xmin, so (id, xmin) names one content of the row.
+  rowVersion: sql<string>`${analysisRuns}.xmin::text`,
+};
+
+/** Stored results by (run id, row version), each with its JSON text: a read of an unchanged run parses and serializes nothing. */
+const resultsByRowVersion = new Recent<StoredResults>(32);
+const resultsJson = new WeakMap<StoredResults, string>();
+
+/** The latest run without its results column, then the results from the cache or, when that row version is new, with the row again. */
+async function latestRunCached(laboratoryId: string, studyId: string) {
+  const db = getDb();
+  const [head] = await db
+    .select(runHeadColumns)
+    .from(analysisRuns)
+    .where(and(eq(analysisRuns.laboratoryId, laboratoryId), eq(analysisRuns.studyId, studyId)))
+    .orderBy(desc(analysisRuns.createdAt))
+    .limit(1);
+  if (!head) return undefined;
+  const known = resultsByRowVersion.get(`${head.id}:${head.rowVersion}`);
+  if (known) return { ...head, results: known };
+  // Head and results from one read, in case the row changed since the head was read.
+  const [row] = await db.select({ ...runHeadColumns, results: analysisRuns.results }).from(analysisRuns).where(eq(analysisRuns.id, head.id));
+  if (!row) return undefined;
+  const stored = row.results as StoredResults;
+  resultsJson.set(stored, JSON.stringify(stored));
+  resultsByRowVersion.set(`${row.id}:${row.rowVersion}`, stored);
+  return { ...row, results: stored };
 }
 
 /**
  * What the workspace shows: the latest run with its state, the bootstrap job's progress while it runs, and the
- * study's samples left out or excluded now.
+ * study's samples left out or excluded now. Currency as in getCurrentAnalysis.
  *
  * @example
  * const view = await analysisView(lab.id, studyId);
  */
 export async function analysisView(laboratoryId: string, studyId: string) {
-  const { run, current, bootstrapDone } = await getCurrentAnalysis(laboratoryId, studyId);
-  const { study } = await getStudy(laboratoryId, studyId);
+  const { study, inputsHash } = await currentInputsHash(laboratoryId, studyId);
+  const run = await latestRunCached(laboratoryId, study.id);
+  const current = run ? await markStaleUnlessCurrent(run, inputsHash, study.state) : false;
   let job: Pick<JobRow, 'id' | 'status' | 'progress' | 'message' | 'error'> | null = null;
-  const jobId = run ? (run.results as StoredResults).bootstrap.jobId : null;
+  const jobId = run ? run.results.bootstrap.jobId : null;
   if (jobId) {
     const row = await getJob(laboratoryId, jobId);
     job = { id: row.id, status: row.status, progress: row.progress, message: row.message, error: row.error };
   }
   return {
-    study: { id: study.id, title: study.title, state: study.state },
-    run: run ? { id: run.id, inputsHash: run.inputsHash, engineVersion: run.engineVersion, createdAt: run.createdAt, stale: run.stale, results: run.results as StoredResults } : null,
+    study,
+    run: run ? { id: run.id, inputsHash: run.inputsHash, engineVersion: run.engineVersion, createdAt: run.createdAt, stale: run.stale, results: run.results } : null,
     current,
-    bootstrapDone,
+    bootstrapDone: run ? run.results.bootstrap.status === 'done' : false,
     job,
   };
+}
+
+/**
+ * JSON.stringify(view), with the run's results taken from their cached JSON text when there is one.
+ *
+ * @example
+ * jsonText(analysisViewJson(await analysisView(lab.id, studyId)));
+ */
+export function analysisViewJson(view: Awaited<ReturnType<typeof analysisView>>): string {
+  if (!view.run) return JSON.stringify(view);
+  const { results: stored, ...head } = view.run;
+  const resultsText = resultsJson.get(stored) ?? JSON.stringify(stored);
+  const { study, current, bootstrapDone, job } = view;
+  // Same members in the same order as JSON.stringify(view): results is the run's last member.
+  return `{"study":${JSON.stringify(study)},"run":${JSON.stringify(head).slice(0, -1)},"results":${resultsText}},"current":${current},"bootstrapDone":${bootstrapDone},"job":${JSON.stringify(job)}}`;
 }
 
 const LOCKED_STATES = new Set(['in_review', 'signed']);

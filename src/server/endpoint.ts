@@ -45,8 +45,16 @@ export function requireUser(locals: App.Locals) {
   return locals.user;
 }
 
-export const json = (body: unknown, status = 200) =>
-  new Response(JSON.stringify(body), { status, headers: { 'content-type': 'application/json', 'cache-control': 'no-store' } });
+export const json = (body: unknown, status = 200) => jsonText(JSON.stringify(body), status);
+
+/**
+ * A JSON answer from text already serialized, with json()'s headers.
+ *
+ * @example
+ * return jsonText('{"ok":true}');
+ */
+export const jsonText = (text: string, status = 200) =>
+  new Response(text, { status, headers: { 'content-type': 'application/json', 'cache-control': 'no-store' } });
 
 export function endpoint(handler: (context: APIContext) => Promise<Response>): APIRoute {
   return async (context) => {

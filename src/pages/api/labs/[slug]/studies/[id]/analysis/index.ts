@@ -1,10 +1,10 @@
-import { analysisView, runAnalysis } from '../../../../../../../server/analysis';
-import { endpoint, json, requireLab } from '../../../../../../../server/endpoint';
+import { analysisView, analysisViewJson, runAnalysis } from '../../../../../../../server/analysis';
+import { endpoint, json, jsonText, requireLab } from '../../../../../../../server/endpoint';
 
 /** The latest analysis run of the study, whether it is current, and the bootstrap job's progress. */
 export const GET = endpoint(async ({ locals, params }) => {
   const { lab } = requireLab(locals, 'read');
-  return json(await analysisView(lab.id, params.id!));
+  return jsonText(analysisViewJson(await analysisView(lab.id, params.id!)));
 });
 
 /** Runs the analysis (or reuses the run while the inputs are unchanged). */

@@ -224,39 +224,72 @@ class Recent<V> {
  */
 const inputsHashByFingerprint = new Recent<string>(2000);
 
+/** A run's columns other than its results. */
+const runHeadColumns = {
+  id: analysisRuns.id,
+  inputsHash: analysisRuns.inputsHash,
+  engineVersion: analysisRuns.engineVersion,
+  createdAt: analysisRuns.createdAt,
+  stale: analysisRuns.stale,
+  // PostgreSQL gives every new version of a row a new xmin, so (id, xmin) names one content of the row.
+  rowVersion: sql<string>`${analysisRuns}.xmin::text`.as('row_version'),
+};
+
 /**
  * The study (scoped by laboratory) with the fingerprint of the data its canonical inputs are built from.
  * Each part is aggregated in a fixed order (by id) as JSON, so that no two different contents give the same text.
  */
 async function studyFingerprint(db: Reader, laboratoryId: string, studyId: string) {
   if (!isUuid(studyId)) throw notFound('study');
-  const rows = await db.execute<{ id: string; title: string; state: StudyState; settings: ProtocolSettings; fingerprint: string }>(sql`
-    select s.id, s.title, s.state, pv.settings, md5(json_build_array(
-      s.protocol_version_id,
-      pv.settings,
-      (select json_agg(json_build_array(m.id, m.code, m.position) order by m.id)
-         from ${samples} m where m.laboratory_id = s.laboratory_id and m.study_id = s.id),
-      (select json_agg(json_build_array(r.id, r.sample_id, r.procedure, r.replicate, r.value, r.censored) order by r.id)
-         from ${results} r where r.laboratory_id = s.laboratory_id and r.study_id = s.id),
-      (select json_agg(json_build_array(e.id, e.sample_id, e.reason) order by e.id)
-         from ${exclusions} e where e.laboratory_id = s.laboratory_id and e.study_id = s.id and e.revoked_at is null)
-    )::text) as fingerprint
-    from ${studies} s join ${protocolVersions} pv on pv.id = s.protocol_version_id
-    where s.id = ${studyId} and s.laboratory_id = ${laboratoryId}`);
-  const [row] = rows.rows;
+  const latestRun = db
+    .select(runHeadColumns)
+    .from(analysisRuns)
+    .where(and(eq(analysisRuns.laboratoryId, studies.laboratoryId), eq(analysisRuns.studyId, studies.id)))
+    .orderBy(desc(analysisRuns.createdAt))
+    .limit(1)
+    .as('latest_run');
+  const [row] = await db
+    .select({
+      id: studies.id,
+      title: studies.title,
+      state: studies.state,
+      settings: protocolVersions.settings,
+      fingerprint: sql<string>`md5(json_build_array(
+        ${studies.protocolVersionId},
+        ${protocolVersions.settings},
+        (select json_agg(json_build_array(m.id, m.code, m.position) order by m.id)
+           from ${samples} m where m.laboratory_id = ${studies.laboratoryId} and m.study_id = ${studies.id}),
+        (select json_agg(json_build_array(r.id, r.sample_id, r.procedure, r.replicate, r.value, r.censored) order by r.id)
+           from ${results} r where r.laboratory_id = ${studies.laboratoryId} and r.study_id = ${studies.id}),
+        (select json_agg(json_build_array(e.id, e.sample_id, e.reason) order by e.id)
+           from ${exclusions} e where e.laboratory_id = ${studies.laboratoryId} and e.study_id = ${studies.id} and e.revoked_at is null)
+      )::text)`,
+      latestRun: {
+        id: latestRun.id,
+        inputsHash: latestRun.inputsHash,
+        engineVersion: latestRun.engineVersion,
+        createdAt: latestRun.createdAt,
+        stale: latestRun.stale,
+        rowVersion: latestRun.rowVersion,
+      },
+    })
+    .from(studies)
+    .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
+    .leftJoinLateral(latestRun, sql`true`)
+    .where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId)));
   if (!row) throw notFound('study');
-  return row;
+  return { ...row, settings: row.settings as ProtocolSettings };
 }
 
 /**
- * The study and the hash of its current canonical inputs (inputsHashOf(studyInputs(…))), rebuilt only when the
- * study's data fingerprint is one not seen before.
+ * The study, the hash of its current canonical inputs (inputsHashOf(studyInputs(…))), rebuilt only when the
+ * study's data fingerprint is one not seen before, and its latest run without the results column.
  */
 async function currentInputsHash(laboratoryId: string, studyId: string) {
   const found = await studyFingerprint(getDb(), laboratoryId, studyId);
   const study = { id: found.id, title: found.title, state: found.state };
   const known = inputsHashByFingerprint.get(fingerprintKey(found));
-  if (known !== undefined) return { study, inputsHash: known };
+  if (known !== undefined) return { study, inputsHash: known, latestRun: found.latestRun };
   // Fingerprint and inputs from one snapshot, so that the fingerprint stored describes exactly the data hashed.
   const inputsHash = await getDb().transaction(
     async (tx) => {
@@ -267,7 +300,7 @@ async function currentInputsHash(laboratoryId: string, studyId: string) {
     },
     { isolationLevel: 'repeatable read', accessMode: 'read only' },
   );
-  return { study, inputsHash };
+  return { study, inputsHash, latestRun: found.latestRun };
 }
 
 const fingerprintKey = (found: { id: string; fingerprint: string }) => `${ENGINE_VERSION}:${found.id}:${found.fingerprint}`;
@@ -470,37 +503,22 @@ async function markStaleUnlessCurrent(run: { id: string; inputsHash: string; sta
   return current;
 }
 
-const runHeadColumns = {
-  id: analysisRuns.id,
-  inputsHash: analysisRuns.inputsHash,
-  engineVersion: analysisRuns.engineVersion,
-  createdAt: analysisRuns.createdAt,
-  stale: analysisRuns.stale,
-  // PostgreSQL gives every new version of a row a new xmin, so (id, xmin) names one content of the row.
-  rowVersion: sql<string>`${analysisRuns}.xmin::text`,
-};
 
-/** Stored results by (run id, row version), each with its JSON text: a read of an unchanged run parses and serializes nothing. */
+/** Stored results by (run id, row version), each with its JSON as UTF-8: a read of an unchanged run parses, serializes and encodes nothing. */
 const resultsByRowVersion = new Recent<StoredResults>(32);
-const resultsJson = new WeakMap<StoredResults, string>();
+const resultsJson = new WeakMap<StoredResults, Buffer>();
 
-/** The latest run without its results column, then the results from the cache or, when that row version is new, with the row again. */
-async function latestRunCached(laboratoryId: string, studyId: string) {
-  const db = getDb();
-  const [head] = await db
-    .select(runHeadColumns)
-    .from(analysisRuns)
-    .where(and(eq(analysisRuns.laboratoryId, laboratoryId), eq(analysisRuns.studyId, studyId)))
-    .orderBy(desc(analysisRuns.createdAt))
-    .limit(1);
-  if (!head) return undefined;
+type RunHead = { id: string; inputsHash: string; engineVersion: string; createdAt: Date; stale: boolean; rowVersion: string };
+
+/** The results of a run whose head was read: from the cache or, when that row version is new, with the row again. */
+async function withCachedResults(head: RunHead) {
   const known = resultsByRowVersion.get(`${head.id}:${head.rowVersion}`);
   if (known) return { ...head, results: known };
   // Head and results from one read, in case the row changed since the head was read.
-  const [row] = await db.select({ ...runHeadColumns, results: analysisRuns.results }).from(analysisRuns).where(eq(analysisRuns.id, head.id));
+  const [row] = await getDb().select({ ...runHeadColumns, results: analysisRuns.results }).from(analysisRuns).where(eq(analysisRuns.id, head.id));
   if (!row) return undefined;
   const stored = row.results as StoredResults;
-  resultsJson.set(stored, JSON.stringify(stored));
+  resultsJson.set(stored, Buffer.from(JSON.stringify(stored)));
   resultsByRowVersion.set(`${row.id}:${row.rowVersion}`, stored);
   return { ...row, results: stored };
 }
@@ -513,8 +531,8 @@ async function latestRunCached(laboratoryId: string, studyId: string) {
  * const view = await analysisView(lab.id, studyId);
  */
 export async function analysisView(laboratoryId: string, studyId: string) {
-  const { study, inputsHash } = await currentInputsHash(laboratoryId, studyId);
-  const run = await latestRunCached(laboratoryId, study.id);
+  const { study, inputsHash, latestRun: head } = await currentInputsHash(laboratoryId, studyId);
+  const run = head ? await withCachedResults(head) : undefined;
   const current = run ? await markStaleUnlessCurrent(run, inputsHash, study.state) : false;
   let job: Pick<JobRow, 'id' | 'status' | 'progress' | 'message' | 'error'> | null = null;
   const jobId = run ? run.results.bootstrap.jobId : null;
@@ -532,18 +550,22 @@ export async function analysisView(laboratoryId: string, studyId: string) {
 }
 
 /**
- * JSON.stringify(view), with the run's results taken from their cached JSON text when there is one.
+ * JSON.stringify(view) as UTF-8, with the run's results taken from their cached bytes when there are some.
  *
  * @example
  * jsonText(analysisViewJson(await analysisView(lab.id, studyId)));
  */
-export function analysisViewJson(view: Awaited<ReturnType<typeof analysisView>>): string {
-  if (!view.run) return JSON.stringify(view);
+export function analysisViewJson(view: Awaited<ReturnType<typeof analysisView>>): Buffer<ArrayBuffer> {
+  if (!view.run) return Buffer.from(JSON.stringify(view));
   const { results: stored, ...head } = view.run;
-  const resultsText = resultsJson.get(stored) ?? JSON.stringify(stored);
+  const resultsBytes = resultsJson.get(stored) ?? Buffer.from(JSON.stringify(stored));
   const { study, current, bootstrapDone, job } = view;
   // Same members in the same order as JSON.stringify(view): results is the run's last member.
-  return `{"study":${JSON.stringify(study)},"run":${JSON.stringify(head).slice(0, -1)},"results":${resultsText}},"current":${current},"bootstrapDone":${bootstrapDone},"job":${JSON.stringify(job)}}`;
+  return Buffer.concat([
+    Buffer.from(`{"study":${JSON.stringify(study)},"run":${JSON.stringify(head).slice(0, -1)},"results":`),
+    resultsBytes,
+    Buffer.from(`},"current":${current},"bootstrapDone":${bootstrapDone},"job":${JSON.stringify(job)}}`),
+  ]);
 }
 
 const LOCKED_STATES = new Set(['in_review', 'signed']);

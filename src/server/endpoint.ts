@@ -48,12 +48,12 @@ export function requireUser(locals: App.Locals) {
 export const json = (body: unknown, status = 200) => jsonText(JSON.stringify(body), status);
 
 /**
- * A JSON answer from text already serialized, with json()'s headers.
+ * A JSON answer from text already serialized (a string, or UTF-8 bytes), with json()'s headers.
  *
  * @example
  * return jsonText('{"ok":true}');
  */
-export const jsonText = (text: string, status = 200) =>
+export const jsonText = (text: string | Uint8Array<ArrayBuffer>, status = 200) =>
   new Response(text, { status, headers: { 'content-type': 'application/json', 'cache-control': 'no-store' } });
 
 export function endpoint(handler: (context: APIContext) => Promise<Response>): APIRoute {

@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { and, eq } from 'drizzle-orm';
 import { getDb } from '../../src/server/db';
-import { protocols, protocolVersions, results } from '../../src/db/schema';
+import { analysisRuns, protocols, protocolVersions, results } from '../../src/db/schema';
 import { defaultSettingsFromTemplate } from '../../src/lib/protocolSchema';
 import { loadTemplate } from '../../src/server/templates';
 import { createLabWithMembers, signIn, type HttpClient, type TestLab } from './helpers';
@@ -36,7 +36,7 @@ describe('analysis currency follows every change of the data at once', () => {
   const current = async () => {
     const response = await scientist.get(`${api}/analysis`);
     expect(response.status).toBe(200);
-    return (await response.json()) as { current: boolean; run: { id: string; stale: boolean } | null };
+    return (await response.json()) as { current: boolean; run: { id: string; stale: boolean; createdAt: string } | null };
   };
 
   /** Saves sample C-03 with `candidate` as its candidate replicates (a reason is needed once it has results). */
@@ -82,6 +82,12 @@ describe('analysis currency follows every change of the data at once', () => {
       saved.set(code, { id: body.row.id, version: body.row.version });
     }
     expect((await scientist.post(`${api}/analysis`)).status).toBe(201);
+  });
+
+  it('answers the run as stored', async () => {
+    const view = await current();
+    const [stored] = await getDb().select().from(analysisRuns).where(eq(analysisRuns.id, view.run!.id));
+    expect(view.run).toMatchObject({ id: stored.id, stale: stored.stale, createdAt: stored.createdAt.toISOString() });
   });
 
   it('an edited result value makes the run not current, and the old value makes it current again', async () => {

@@ -504,8 +504,11 @@ async function markStaleUnlessCurrent(run: { id: string; inputsHash: string; sta
 }
 
 
-/** Stored results by (run id, row version), each with its JSON as UTF-8: a read of an unchanged run parses, serializes and encodes nothing. */
-const resultsByRowVersion = new Recent<StoredResults>(32);
+/**
+ * Stored results by (run id, row version), each with its JSON as UTF-8: a read of an unchanged run parses,
+ * serializes and encodes nothing. Few entries, since a large study's parsed results take megabytes.
+ */
+const resultsByRowVersion = new Recent<StoredResults>(8);
 const resultsJson = new WeakMap<StoredResults, Buffer>();
 
 type RunHead = { id: string; inputsHash: string; engineVersion: string; createdAt: Date; stale: boolean; rowVersion: string };

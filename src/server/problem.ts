@@ -119,14 +119,20 @@ export async function readJson(request: Request, maxBytes = 1_000_000): Promise<
 
 /** PostgreSQL's check_violation (SQLSTATE 23514): CHECK constraints, and the lock and freeze triggers. */
 const CHECK_VIOLATION = '23514';
+/** unique_violation (SQLSTATE 23505). */
+const UNIQUE_VIOLATION = '23505';
 
 /**
- * A refusal by the database itself, as a Problem: the lock of a signed study or an approved protocol (409), or a
- * CHECK constraint (422). Services refuse such writes before they reach the database; this is the last line.
+ * A refusal by the database itself, as a Problem: the lock of a signed study or an approved protocol, or a
+ * unique value taken by a concurrent save (409), or a CHECK constraint (422). Services refuse such writes before they reach the database; this is the last line.
  * Returns null for any other error.
  */
 export function problemFromDatabase(error: unknown): Problem | null {
   const cause = (error as { cause?: { code?: string; message?: string } }).cause ?? (error as { code?: string; message?: string });
+  // Two saves racing to the same unique value (a sample code): the later one is told, nothing of it is kept.
+  if (cause?.code === UNIQUE_VIOLATION) {
+    return new Problem(409, 'Changed by someone else', 'Someone saved the same value at the same moment; reload and try again. Nothing was saved.');
+  }
   if (cause?.code !== CHECK_VIOLATION) return null;
   const message = cause.message ?? '';
   if (/signed and locked|already signed|append-only|is approved and cannot change/i.test(message)) {

@@ -203,7 +203,7 @@ function invalidRow(errors: RowMessage[]) {
 export async function saveRow(writer: Writer, laboratoryId: string, studyId: string | undefined, sampleId: string | null, body: RowSave) {
   if (sampleId !== null && !isUuid(sampleId)) throw notFound('sample');
   return getDb().transaction(async (tx) => {
-    const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId);
+    const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId, 'share');
     const checked = checkSampleRow(rowText(body), rules);
     if (!checked.row) throw invalidRow(checked.errors);
     const row = checked.row;

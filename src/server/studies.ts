@@ -232,19 +232,22 @@ type Tx = Parameters<Parameters<Database['transaction']>[0]>[0];
 
 /**
  * Locks a study for a change to its results and returns it with its rules; results change only while the study
- * is collecting (409 otherwise). Every results write takes this lock first, so writes to one study are serial.
+ * is collecting (409 otherwise). Every results write takes this lock first. 'update' (imports and uploads of
+ * many rows) makes writes to one study serial; 'share' (one grid row, whose sample row is locked too, and whose
+ * code is kept unique by the database: a racing duplicate answers 409) lets rows be saved side by side, while a
+ * state change (submit, sign), which takes the study row for update, still waits for them and they for it.
  *
  * @example
  * const { study, rules } = await lockCollectingStudy(tx, lab.id, studyId);
  */
-export async function lockCollectingStudy(tx: Tx & Executor, laboratoryId: string, studyId: string | undefined) {
+export async function lockCollectingStudy(tx: Tx & Executor, laboratoryId: string, studyId: string | undefined, mode: 'update' | 'share' = 'update') {
   if (!isUuid(studyId)) throw notFound('study');
   const [row] = await tx
     .select({ study: studies, settings: protocolVersions.settings })
     .from(studies)
     .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
     .where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId)))
-    .for('update', { of: studies });
+    .for(mode, { of: studies });
   if (!row) throw notFound('study');
   if (row.study.state !== 'collecting') {
     throw new Problem(409, 'Study not collecting results', `Results can be entered only while the study is collecting results; this study is ${row.study.state.replace('_', ' ')}.`);

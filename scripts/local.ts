@@ -8,8 +8,9 @@ import { ensureCluster } from './postgres';
 export const ROOT = fileURLToPath(new URL('..', import.meta.url));
 export const DATA_DIR = `${ROOT}.data`;
 export const APP_CLUSTER_DIR = `${DATA_DIR}/postgres`;
-export const APP_DB_PORT = 54329;
-export const APP_SMTP_PORT = 54325;
+/** Ports of `npm start`; BIASWISE_DB_PORT and BIASWISE_SMTP_PORT move them (e.g. for a second checkout), PORT moves the app. */
+export const APP_DB_PORT = Number(process.env.BIASWISE_DB_PORT ?? 54329);
+export const APP_SMTP_PORT = Number(process.env.BIASWISE_SMTP_PORT ?? 54325);
 export const APP_WEB_PORT = 4321;
 /** Where `astro build` writes (BIASWISE_BUILD_DIR, as in astro.config.mjs), and the server entry inside it. */
 export const BUILD_DIR = resolve(ROOT, process.env.BIASWISE_BUILD_DIR ?? 'dist');

@@ -26,6 +26,11 @@ const bytea = customType<{ data: Buffer; driverData: Buffer }>({ dataType: () =>
 const createdAt = () => timestamp('created_at', { withTimezone: true }).notNull().defaultNow();
 const updatedAt = () => timestamp('updated_at', { withTimezone: true }).notNull().defaultNow();
 const version = () => integer('version').notNull().default(1);
+/** The person a row belongs to (deleting the person deletes it). */
+const userRef = () =>
+  text('user_id')
+    .notNull()
+    .references(() => user.id, { onDelete: 'cascade' });
 /** The owning laboratory (every lab-owned row has one; deleting a laboratory deletes its rows). */
 const laboratoryRef = () =>
   uuid('laboratory_id')
@@ -71,9 +76,7 @@ export const session = pgTable(
     updatedAt: updatedAt(),
     ipAddress: text('ip_address'),
     userAgent: text('user_agent'),
-    userId: text('user_id')
-      .notNull()
-      .references(() => user.id, { onDelete: 'cascade' }),
+    userId: userRef(),
     activeLaboratoryId: uuid('active_laboratory_id'),
   },
   (t) => [index('session_user_idx').on(t.userId)],
@@ -85,9 +88,7 @@ export const account = pgTable(
     id: text('id').primaryKey(),
     accountId: text('account_id').notNull(),
     providerId: text('provider_id').notNull(),
-    userId: text('user_id')
-      .notNull()
-      .references(() => user.id, { onDelete: 'cascade' }),
+    userId: userRef(),
     accessToken: text('access_token'),
     refreshToken: text('refresh_token'),
     idToken: text('id_token'),
@@ -137,9 +138,7 @@ export const memberships = pgTable(
   {
     id: uuid('id').primaryKey().defaultRandom(),
     laboratoryId: laboratoryRef(),
-    userId: text('user_id')
-      .notNull()
-      .references(() => user.id, { onDelete: 'cascade' }),
+    userId: userRef(),
     role: text('role', { enum: ROLES }).notNull(),
     createdAt: createdAt(),
     version: version(),
@@ -274,9 +273,7 @@ export const studyAssignments = pgTable(
   'study_assignments',
   {
     studyId: studyRef(),
-    userId: text('user_id')
-      .notNull()
-      .references(() => user.id, { onDelete: 'cascade' }),
+    userId: userRef(),
     createdAt: createdAt(),
   },
   (t) => [uniqueIndex('study_assignments_uq').on(t.studyId, t.userId)],

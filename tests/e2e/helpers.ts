@@ -13,15 +13,23 @@ export function demoPerson(role: Role) {
   return person;
 }
 
-/** Signs in through the sign-in page, by keyboard, and waits for the laboratory's start page. */
-export async function signInAs(page: Page, role: Role) {
+/**
+ * Fills and submits the sign-in form already on the page (once its island is live: before that its button is
+ * disabled), by keyboard, as the demo person with that role.
+ */
+export async function submitSignIn(page: Page, role: Role) {
   const person = demoPerson(role);
-  await page.goto('/sign-in');
-  // The form only submits once its island is live (before that its button is disabled).
   await expect(page.getByRole('button', { name: 'Sign in' })).toBeEnabled();
   await page.getByLabel('E-mail').fill(person.email);
   await page.getByLabel('Password').fill(DEMO_PASSWORD);
   await page.getByLabel('Password').press('Enter');
+  return person;
+}
+
+/** Signs in through the sign-in page and waits for the laboratory's start page. */
+export async function signInAs(page: Page, role: Role) {
+  await page.goto('/sign-in');
+  const person = await submitSignIn(page, role);
   await expect(page).toHaveURL(new RegExp(`/labs/${DEMO_LAB.slug}$`));
   return person;
 }

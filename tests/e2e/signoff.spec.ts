@@ -9,7 +9,7 @@ import AxeBuilder from '@axe-core/playwright';
 import { expect, test, type APIRequestContext, type Browser, type Page } from '@playwright/test';
 import { demoPairs } from '../../scripts/demo';
 import type { Role } from '../../src/db/schema';
-import { DEMO_LAB, DEMO_PASSWORD, demoPerson, waitForMail } from './helpers';
+import { DEMO_LAB, DEMO_PASSWORD, demoPerson, signInAs, submitSignIn, waitForMail } from './helpers';
 import { E2E_DIRS } from './stack';
 
 const TITLE = 'Bench analyser "Plover" against Heron: sign-off journey';
@@ -20,21 +20,10 @@ async function hydrated(page: Page) {
   await page.waitForFunction(() => document.querySelector('astro-island[ssr]') === null);
 }
 
-/** Signs in on the sign-in page once its form is live, as the demo person with that role. */
-async function signInThroughForm(page: Page, role: Role) {
-  const person = demoPerson(role);
-  await hydrated(page);
-  await page.getByLabel('E-mail').fill(person.email);
-  await page.getByLabel('Password').fill(DEMO_PASSWORD);
-  await page.getByLabel('Password').press('Enter');
-}
-
 /** A browser of its own for one demo person, signed in through the sign-in page. */
 async function personPage(browser: Browser, role: Role): Promise<Page> {
   const page = await (await browser.newContext()).newPage();
-  await page.goto('/sign-in');
-  await signInThroughForm(page, role);
-  await expect(page).toHaveURL(/\/labs(\/|$)/);
+  await signInAs(page, role);
   return page;
 }
 
@@ -110,7 +99,7 @@ test('a study goes from submission through the e-mailed link to a signature, is 
   const directorPage = await (await browser.newContext()).newPage();
   await directorPage.goto(new URL(link!).pathname);
   await expect(directorPage).toHaveURL(/\/sign-in\?next=/);
-  await signInThroughForm(directorPage, 'medical_director');
+  await submitSignIn(directorPage, 'medical_director');
   await expect(directorPage).toHaveURL(new RegExp(`${signPath}$`));
   await hydrated(directorPage);
   await expect(directorPage.getByRole('heading', { level: 1 })).toContainText(TITLE);

@@ -1,3 +1,4 @@
+import { iterateToFixedPoint } from './acceleration';
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { normalQuantile } from './distributions';
 import { StatsInputError } from './errors';
@@ -113,8 +114,8 @@ const REFIT_MAX_ITERATIONS = 200;
 
 /**
  * Warm-started refit for the bootstrap of a robust fit, by the same IRLS as the full fit (u = r/s, weights w(u),
- * weighted least squares, stop at a relative change ‖Δβ‖/‖β‖ of 1e-6) but returning only the coefficients, with
- * every buffer allocated once per bootstrap rather than once per resample.
+ * weighted least squares, stop at a relative change ‖Δβ‖/‖β‖ of 1e-6, accelerated near the end as the full fit is)
+ * but returning only the coefficients, with every buffer allocated once per bootstrap rather than once per resample.
  * - Huber, Tukey, Hampel: MAD scale re-estimated every iteration, started from the full-data estimate instead of
  *   from OLS or a fresh S-estimate per resample.
  * - MM: the full-data S-scale is kept fixed and the bisquare M-step starts from the full-data MM coefficients.
@@ -149,6 +150,7 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   const ys = new Float64Array(n);
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
+  const weights = new Float64Array(n);
   const startA = fit.intercept + fit.slope * centre;
   const startB = fit.slope;
   // only for convex ρ (Huber), whose solution is unique: a redescending fit could be sent to another local minimum
@@ -157,28 +159,31 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     const size = indices.length;
     const r = size === n ? residuals : residuals.subarray(0, size);
     const s = size === n ? scratch : scratch.subarray(0, size);
+    const w = size === n ? weights : weights.subarray(0, size);
     for (let i = 0; i < size; i++) {
       xs[i] = x[indices[i]] - centre;
       ys[i] = y[indices[i]];
     }
-    let a = startA;
-    let b = startB;
     let scale = fixedScale ?? fit.scale ?? 0;
-    for (let iteration = 0; iteration < REFIT_MAX_ITERATIONS; iteration++) {
+    let first = true;
+    /** One IRLS step in the centred coordinates (a at `centre`, b). */
+    const irlsStep = (beta: Float64Array): Float64Array => {
+      const a = beta[0];
+      const b = beta[1];
       for (let i = 0; i < size; i++) r[i] = ys[i] - a - b * xs[i];
       // the previous scale only speeds up the median (madScale's hint); the result is the same
       scale = fixedScale ?? madScale(r, s, scale);
+      norm.weights(r, scale, w);
       let sumW = 0;
       let sumWX = 0;
       let sumWY = 0;
       let sumWXX = 0;
       let sumWXY = 0;
       for (let i = 0; i < size; i++) {
-        const w = norm.weight(r[i] / scale);
-        const wx = w * xs[i];
-        sumW += w;
+        const wx = w[i] * xs[i];
+        sumW += w[i];
         sumWX += wx;
-        sumWY += w * ys[i];
+        sumWY += w[i] * ys[i];
         sumWXX += wx * xs[i];
         sumWXY += wx * ys[i];
       }
@@ -186,21 +191,22 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
       if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
         throw new StatsInputError('the weighted line fit is singular: the weighted samples all have the same x value', { field: 'x' });
       }
-      let nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
-      let nextA = (sumWY - nextB * sumWX) / sumW;
-      if (iteration === 0 && correction) {
+      const nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
+      const nextA = (sumWY - nextB * sumWX) / sumW;
+      if (first && correction) {
         // the first step from the full-data estimate, stretched by the one-step correction (a better start only)
-        const stepA = nextA - startA;
-        const stepB = nextB - startB;
-        nextA = startA + correction[0] * stepA + correction[1] * stepB;
-        nextB = startB + correction[2] * stepA + correction[3] * stepB;
+        first = false;
+        const stepA = nextA - a;
+        const stepB = nextB - b;
+        return Float64Array.of(a + correction[0] * stepA + correction[1] * stepB, b + correction[2] * stepA + correction[3] * stepB);
       }
-      // relative change of (intercept, slope) on the original x scale, as in the full fit
-      const change = Math.hypot(nextA - nextB * centre - (a - b * centre), nextB - b) / Math.max(1e-20, Math.hypot(a - b * centre, b));
-      a = nextA;
-      b = nextB;
-      if (change <= REFIT_TOLERANCE) break;
-    }
+      return Float64Array.of(nextA, nextB);
+    };
+    // relative change of (intercept, slope) on the original x scale, as in the full fit
+    const change = (from: Float64Array, to: Float64Array) =>
+      Math.hypot(to[0] - to[1] * centre - (from[0] - from[1] * centre), to[1] - from[1]) /
+      Math.max(1e-20, Math.hypot(from[0] - from[1] * centre, from[1]));
+    const [a, b] = iterateToFixedPoint(irlsStep, change, Float64Array.of(startA, startB), REFIT_TOLERANCE, REFIT_MAX_ITERATIONS).beta;
     return [a - b * centre, b];
   };
 }

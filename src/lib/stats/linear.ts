@@ -44,28 +44,117 @@ export function lineDesignMatrix(x: readonly number[]): number[][] {
  * design.solveWeighted(Float64Array.from([2, 4, 6]), null); // Float64Array [0, 2]
  */
 export function createLineDesign(x: readonly number[] | Float64Array): LinearDesign {
-  const xs = new Float64Array(x);
-  const n = xs.length;
-  // sums are taken about the unweighted mean of x (and y[0] for y), which keeps one-pass sums accurate
-  let shiftX = 0;
-  for (let i = 0; i < n; i++) shiftX += xs[i];
-  shiftX /= n;
+  return new LineDesign(new Float64Array(x));
+}
 
-  function singular(): never {
-    throw new StatsInputError(
-      'the weighted line fit is singular: the samples with non-zero weight all have the same x value',
-      { field: 'x' },
-    );
+/** Total weight, weighted mean of x and Σw(x − x̄)². */
+interface LineMoments {
+  sumW: number;
+  meanX: number;
+  sxx: number;
+}
+
+// A class rather than closures: every line design (one per bootstrap resample, subset or fit) then shares the same
+// optimised methods and their type feedback, which IRLS loops over many designs depend on for speed.
+class LineDesign implements LinearDesign {
+  readonly n: number;
+  readonly p = 2;
+  /** Sums are taken about the unweighted mean of x (and y[0] for y), which keeps one-pass sums accurate. */
+  private readonly shiftX: number;
+  private unweighted: LineMoments | undefined;
+
+  constructor(private readonly xs: Float64Array) {
+    this.n = xs.length;
+    let sum = 0;
+    for (let i = 0; i < this.n; i++) sum += xs[i];
+    this.shiftX = sum / this.n;
   }
 
-  /** Total weight, weighted mean of x and Σw(x − x̄)²; `weights` null means all 1. */
-  function moments(weights: Float64Array | null): { sumW: number; meanX: number; sxx: number } {
-    if (weights === null) return unweighted ?? (unweighted = weightedMoments(new Float64Array(n).fill(1)));
-    return weightedMoments(weights);
+  solveWeighted(y: Float64Array, weights: Float64Array | null): Float64Array {
+    const { xs, shiftX, n } = this;
+    const shiftY = y[0];
+    let sumW = 0;
+    let sumX = 0;
+    let sumY = 0;
+    let sumXX = 0;
+    let sumXY = 0;
+    if (weights === null) {
+      for (let i = 0; i < n; i++) {
+        const dx = xs[i] - shiftX;
+        const dy = y[i] - shiftY;
+        sumX += dx;
+        sumY += dy;
+        sumXX += dx * dx;
+        sumXY += dx * dy;
+      }
+      sumW = n;
+    } else {
+      for (let i = 0; i < n; i++) {
+        const w = weights[i];
+        const dx = xs[i] - shiftX;
+        const wdx = w * dx;
+        const dy = y[i] - shiftY;
+        sumW += w;
+        sumX += wdx;
+        sumY += w * dy;
+        sumXX += wdx * dx;
+        sumXY += wdx * dy;
+      }
+    }
+    const sxx = sumXX - (sumX * sumX) / sumW;
+    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singularLine();
+    const slope = (sumXY - (sumX * sumY) / sumW) / sxx;
+    const meanX = shiftX + sumX / sumW;
+    const meanY = shiftY + sumY / sumW;
+    return Float64Array.of(meanY - slope * meanX, slope);
   }
-  let unweighted: { sumW: number; meanX: number; sxx: number } | undefined;
 
-  function weightedMoments(weights: Float64Array): { sumW: number; meanX: number; sxx: number } {
+  solveExact(rows: readonly number[], y: Float64Array): Float64Array | null {
+    const [i, j] = rows;
+    const dx = this.xs[j] - this.xs[i];
+    if (dx === 0) return null;
+    const slope = (y[j] - y[i]) / dx;
+    return Float64Array.of(y[i] - slope * this.xs[i], slope);
+  }
+
+  residuals(y: Float64Array, beta: Float64Array, out: Float64Array): void {
+    const { xs, n } = this;
+    const a = beta[0];
+    const b = beta[1];
+    for (let i = 0; i < n; i++) out[i] = y[i] - a - b * xs[i];
+  }
+
+  crossProductInverse(weights: Float64Array | null): number[][] {
+    const { sumW, meanX, sxx } = this.moments(weights);
+    return [
+      [1 / sumW + (meanX * meanX) / sxx, -meanX / sxx],
+      [-meanX / sxx, 1 / sxx],
+    ];
+  }
+
+  hatDiagonal(weights: Float64Array | null): Float64Array {
+    const { sumW, meanX, sxx } = this.moments(weights);
+    const { xs, n } = this;
+    const hat = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const d = xs[i] - meanX;
+      hat[i] = 1 / sumW + (d * d) / sxx;
+    }
+    if (weights !== null) for (let i = 0; i < n; i++) hat[i] *= weights[i];
+    return hat;
+  }
+
+  select(rows: readonly number[]): LinearDesign {
+    return new LineDesign(Float64Array.from(rows, (i) => this.xs[i]));
+  }
+
+  private moments(weights: Float64Array | null): LineMoments {
+    if (weights === null) return this.unweighted ?? (this.unweighted = this.weightedMoments(new Float64Array(this.n).fill(1)));
+    return this.weightedMoments(weights);
+  }
+
+  private weightedMoments(weights: Float64Array): LineMoments {
+    const { xs, shiftX, n } = this;
     let sumW = 0;
     let sumX = 0;
     let sumXX = 0;
@@ -77,72 +166,15 @@ export function createLineDesign(x: readonly number[] | Float64Array): LinearDes
       sumXX += w * dx * dx;
     }
     const sxx = sumXX - (sumX * sumX) / sumW;
-    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
+    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singularLine();
     return { sumW, meanX: shiftX + sumX / sumW, sxx };
   }
+}
 
-  // one loop per case, so that each stays monomorphic (null or a Float64Array) and fast
-  function weightedFit(y: Float64Array, weights: Float64Array): Float64Array {
-    const shiftY = y[0];
-    let sumW = 0;
-    let sumX = 0;
-    let sumY = 0;
-    let sumXX = 0;
-    let sumXY = 0;
-    for (let i = 0; i < n; i++) {
-      const w = weights[i];
-      const dx = xs[i] - shiftX;
-      const wdx = w * dx;
-      const dy = y[i] - shiftY;
-      sumW += w;
-      sumX += wdx;
-      sumY += w * dy;
-      sumXX += wdx * dx;
-      sumXY += wdx * dy;
-    }
-    const sxx = sumXX - (sumX * sumX) / sumW;
-    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singular();
-    const slope = (sumXY - (sumX * sumY) / sumW) / sxx;
-    const meanX = shiftX + sumX / sumW;
-    const meanY = shiftY + sumY / sumW;
-    return Float64Array.of(meanY - slope * meanX, slope);
-  }
-
-  return {
-    n,
-    p: 2,
-    solveWeighted: (y, weights) => weightedFit(y, weights ?? new Float64Array(n).fill(1)),
-    solveExact(rows, y) {
-      const [i, j] = rows;
-      const dx = xs[j] - xs[i];
-      if (dx === 0) return null;
-      const slope = (y[j] - y[i]) / dx;
-      return Float64Array.of(y[i] - slope * xs[i], slope);
-    },
-    residuals(y, beta, out) {
-      const a = beta[0];
-      const b = beta[1];
-      for (let i = 0; i < n; i++) out[i] = y[i] - a - b * xs[i];
-    },
-    crossProductInverse(weights) {
-      const { sumW, meanX, sxx } = moments(weights);
-      return [
-        [1 / sumW + (meanX * meanX) / sxx, -meanX / sxx],
-        [-meanX / sxx, 1 / sxx],
-      ];
-    },
-    hatDiagonal(weights) {
-      const { sumW, meanX, sxx } = moments(weights);
-      const hat = new Float64Array(n);
-      for (let i = 0; i < n; i++) {
-        const d = xs[i] - meanX;
-        hat[i] = 1 / sumW + (d * d) / sxx;
-      }
-      if (weights !== null) for (let i = 0; i < n; i++) hat[i] *= weights[i];
-      return hat;
-    },
-    select: (rows) => createLineDesign(rows.map((i) => xs[i])),
-  };
+function singularLine(): never {
+  throw new StatsInputError('the weighted line fit is singular: the samples with non-zero weight all have the same x value', {
+    field: 'x',
+  });
 }
 
 /** Relative size below which a pivot of R (QR) or U (LU) counts as zero: the columns are collinear. */

@@ -1,3 +1,4 @@
+import { iterateToFixedPoint } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, madScale, toArray, type LinearDesign } from './linear';
@@ -19,6 +20,11 @@ export interface MEstimatorOptions {
   seed?: number;
   /** Keep the scale fixed at this value instead of re-estimating the MAD at every iteration (MM). */
   fixedScale?: number;
+  /**
+   * Anderson acceleration once the steps are small (default true; see acceleration.ts): the same fixed point in
+   * fewer iterations. false reproduces plain IRLS iterate by iterate.
+   */
+  accelerate?: boolean;
 }
 
 /** An M-estimate with its sandwich covariance and per-sample IRLS output, in input order. */
@@ -56,17 +62,17 @@ export function sandwichCovariance(
   norm: RobustNorm,
 ): number[][] {
   const { n, p } = design;
+  const psi = new Float64Array(n);
+  const deriv = new Float64Array(n);
+  norm.psis(residuals, scale, psi);
+  norm.psiDerivs(residuals, scale, deriv);
   let sumPsi2 = 0;
   let sumDeriv = 0;
   let sumDeriv2 = 0;
-  const inverseScale = 1 / scale;
   for (let i = 0; i < n; i++) {
-    const u = residuals[i] * inverseScale;
-    const psi = norm.psi(u);
-    const deriv = norm.psiDeriv(u);
-    sumPsi2 += psi * psi;
-    sumDeriv += deriv;
-    sumDeriv2 += deriv * deriv;
+    sumPsi2 += psi[i] * psi[i];
+    sumDeriv += deriv[i];
+    sumDeriv2 += deriv[i] * deriv[i];
   }
   const meanDeriv = sumDeriv / n;
   if (!(meanDeriv > 0)) {
@@ -132,7 +138,7 @@ export function mEstimateOnDesign(
   norm: RobustNorm,
   opts: MEstimatorOptions & { startKind?: StartKind } = {},
 ): MEstimate {
-  const { maxIterations = 200, tolerance = 1e-10, confidence = 0.95, seed = 1, fixedScale } = opts;
+  const { maxIterations = 200, tolerance = 1e-10, confidence = 0.95, seed = 1, fixedScale, accelerate = true } = opts;
   validateConfidence(confidence);
   if (!Number.isInteger(maxIterations) || maxIterations < 1) {
     throw new StatsInputError(`maxIterations must be a whole number of at least 1 (got ${maxIterations})`, {
@@ -144,32 +150,22 @@ export function mEstimateOnDesign(
 
   const { n, p } = design;
   const start = startingPoint(design, y, norm, opts.start, seed);
-  let beta = start.beta;
   const residuals = new Float64Array(n);
   const weights = new Float64Array(n);
   const scratch = new Float64Array(n);
-  design.residuals(y, beta, residuals);
-
   let scale = fixedScale ?? 0;
-  let iterations = 0;
-  let converged = false;
-  while (iterations < maxIterations) {
+  /** One IRLS step from β: residuals, the MAD scale (unless fixed), weights, weighted least squares. */
+  const irlsStep = (beta: Float64Array): Float64Array => {
+    design.residuals(y, beta, residuals);
     if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
-    const inverseScale = 1 / scale;
-    for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] * inverseScale);
-    const next = design.solveWeighted(y, weights);
-    design.residuals(y, next, residuals);
-    iterations++;
-    const change = relativeChange(beta, next);
-    beta = next;
-    if (change <= tolerance) {
-      converged = true;
-      break;
-    }
-  }
+    norm.weights(residuals, scale, weights);
+    return design.solveWeighted(y, weights);
+  };
+
+  const { beta, iterations, converged } = iterateToFixedPoint(irlsStep, relativeChange, start.beta, tolerance, maxIterations, accelerate);
   // report the weights of the final fit's own residuals
-  const inverseScale = 1 / scale;
-  for (let i = 0; i < n; i++) weights[i] = norm.weight(residuals[i] * inverseScale);
+  design.residuals(y, beta, residuals);
+  norm.weights(residuals, scale, weights);
 
   const covariance = sandwichCovariance(design, residuals, scale, norm);
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));

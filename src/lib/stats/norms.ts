@@ -14,10 +14,18 @@ export interface RobustNorm {
   psi(u: number): number;
   psiDeriv(u: number): number;
   weight(u: number): number;
+  /** w(rᵢ/s) for every residual, into `out` (the array forms let IRLS loops call one family's code only). */
+  weights(residuals: Float64Array, scale: number, out: Float64Array): void;
+  /** ψ(rᵢ/s) for every residual, into `out`. */
+  psis(residuals: Float64Array, scale: number, out: Float64Array): void;
+  /** ψ′(rᵢ/s) for every residual, into `out`. */
+  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void;
 }
 
 // Each family is a class so that all its instances share one set of methods: IRLS loops call them
 // per sample, and shared methods keep those calls cheap (inlined) whatever the tuning constants.
+// Each class repeats the three array forms on purpose: a loop shared through a base class would see every
+// family at one call site, and V8 stops inlining such (megamorphic) calls.
 
 class LeastSquaresNorm implements RobustNorm {
   readonly name = 'leastSquares' as const;
@@ -29,11 +37,23 @@ class LeastSquaresNorm implements RobustNorm {
   psi(u: number): number {
     return u;
   }
-  psiDeriv(): number {
+  psiDeriv(_u: number): number {
     return 1;
   }
-  weight(): number {
+  weight(_u: number): number {
     return 1;
+  }
+  weights(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+  }
+  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
+  }
+  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -56,6 +76,18 @@ class HuberNorm implements RobustNorm {
   }
   weight(u: number): number {
     return Math.min(1, this.t / Math.abs(u)); // t/0 = ∞ gives the limit 1 at u = 0
+  }
+  weights(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+  }
+  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
+  }
+  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -86,6 +118,18 @@ class TukeyBisquareNorm implements RobustNorm {
   weight(u: number): number {
     const v = Math.max(0, 1 - (u / this.c) ** 2); // 0 beyond c
     return v * v;
+  }
+  weights(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+  }
+  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
+  }
+  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -134,6 +178,18 @@ class HampelNorm implements RobustNorm {
     if (z <= this.b) return this.a / z;
     if (z <= this.c) return (this.slope * (this.c - z)) / z;
     return 0;
+  }
+  weights(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+  }
+  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
+  }
+  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
+    const k = 1 / scale;
+    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 

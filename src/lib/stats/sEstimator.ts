@@ -1,3 +1,4 @@
+import { iterateToFixedPoint } from './acceleration';
 import { StatsInputError } from './errors';
 import { createDesign, madScale, toArray, type LinearDesign } from './linear';
 import { validateResponse } from './ols';
@@ -202,33 +203,43 @@ function searchCandidates(design: LinearDesign, y: Float64Array, settings: Setti
   return best;
 }
 
-/** I-steps from `start` until the relative change in the coefficients is ≤ tolerance; then the exact M-scale. */
+/**
+ * I-steps from `start` until the relative change in the coefficients is ≤ tolerance; then the exact M-scale.
+ * The state iterated is (β, s), accelerated near convergence like IRLS (acceleration.ts), to the same fixed point.
+ */
 function refineFully(design: LinearDesign, y: Float64Array, start: Candidate, settings: Settings): Refined {
   const { c, b, maxIterations, tolerance } = settings;
   const { n, p } = design;
   const residuals = new Float64Array(n);
   const weights = new Float64Array(n);
-  let { beta, scale } = start;
-  design.residuals(y, beta, residuals);
-  let iterations = 0;
-  let converged = false;
-  while (iterations < maxIterations) {
-    const step = refinementStep(design, y, residuals, weights, scale, c, b);
-    iterations++;
+  let residualsOf: Float64Array | null = null; // the state whose residuals `residuals` holds
+  const step = (state: Float64Array): Float64Array => {
+    if (state !== residualsOf) design.residuals(y, state.subarray(0, p), residuals);
+    const next = refinementStep(design, y, residuals, weights, state[p], c, b);
+    const out = new Float64Array(p + 1);
+    out.set(next.beta);
+    out[p] = next.scale;
+    residualsOf = out;
+    return out;
+  };
+  const coefficientChange = (from: Float64Array, to: Float64Array) => {
     let diff = 0;
     let size = 0;
     for (let j = 0; j < p; j++) {
-      diff += (step.beta[j] - beta[j]) ** 2;
-      size += beta[j] ** 2;
+      diff += (to[j] - from[j]) ** 2;
+      size += from[j] ** 2;
     }
-    beta = step.beta;
-    scale = step.scale;
-    if (Math.sqrt(diff / Math.max(1e-20, size)) <= tolerance) {
-      converged = true;
-      break;
-    }
-  }
-  return { beta, scale: mScale(residuals, p, c, b, scale), iterations, converged };
+    return Math.sqrt(diff / Math.max(1e-20, size));
+  };
+  const initial = new Float64Array(p + 1);
+  initial.set(start.beta);
+  initial[p] = start.scale;
+  design.residuals(y, start.beta, residuals);
+  residualsOf = initial;
+  const result = iterateToFixedPoint(step, coefficientChange, initial, tolerance, maxIterations);
+  const beta = result.beta.slice(0, p);
+  if (result.beta !== residualsOf) design.residuals(y, beta, residuals);
+  return { beta, scale: mScale(residuals, p, c, b, result.beta[p]), iterations: result.iterations, converged: result.converged };
 }
 
 function smallestScale(fits: Refined[]): Refined {

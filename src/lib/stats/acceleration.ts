@@ -18,17 +18,22 @@ export const ACCELERATE_BELOW = 1e-4;
  * const next = acceleration.propose(beta, irlsStep(beta)) ?? irlsStep(beta); // null until there is history
  */
 export class AndersonAcceleration {
-  private iterates: Float64Array[] = [];
-  private steps: Float64Array[] = [];
+  // plain arrays: these vectors are short, and typed arrays cost far more to allocate than they save here
+  private iterates: number[][] = [];
+  private steps: number[][] = [];
 
   constructor(private readonly p: number) {}
 
   /** The accelerated iterate after β with G(β) = `mapped`, or null while the history is too short or degenerate. */
   propose(beta: Float64Array, mapped: Float64Array): Float64Array | null {
     const { p } = this;
-    const step = new Float64Array(p);
-    for (let j = 0; j < p; j++) step[j] = mapped[j] - beta[j];
-    this.iterates.push(beta);
+    const step = new Array<number>(p);
+    const iterate = new Array<number>(p);
+    for (let j = 0; j < p; j++) {
+      step[j] = mapped[j] - beta[j];
+      iterate[j] = beta[j];
+    }
+    this.iterates.push(iterate);
     this.steps.push(step);
     if (this.iterates.length > 3) {
       this.iterates.shift();
@@ -36,11 +41,11 @@ export class AndersonAcceleration {
     }
     const depth = this.steps.length - 1;
     if (depth === 0) return null;
-    const stepDifferences: Float64Array[] = [];
-    const mappedDifferences: Float64Array[] = [];
+    const stepDifferences: number[][] = [];
+    const mappedDifferences: number[][] = [];
     for (let k = 0; k < depth; k++) {
-      const df = new Float64Array(p);
-      const dg = new Float64Array(p);
+      const df = new Array<number>(p);
+      const dg = new Array<number>(p);
       for (let j = 0; j < p; j++) {
         df[j] = this.steps[k + 1][j] - this.steps[k][j];
         dg[j] = this.iterates[k + 1][j] - this.iterates[k][j] + df[j]; // ΔG = Δβ + ΔF
@@ -65,7 +70,7 @@ export class AndersonAcceleration {
   }
 }
 
-const dot = (a: Float64Array, b: Float64Array) => {
+const dot = (a: number[], b: number[]) => {
   let sum = 0;
   for (let j = 0; j < a.length; j++) sum += a[j] * b[j];
   return sum;
@@ -75,7 +80,7 @@ const dot = (a: Float64Array, b: Float64Array) => {
  * γ minimising ‖f − Σγₖcₖ‖ over one or two columns cₖ by the normal equations; with two nearly parallel columns only
  * the newest is used; null when even that one is zero.
  */
-function leastSquaresCoefficients(columns: Float64Array[], f: Float64Array): number[] | null {
+function leastSquaresCoefficients(columns: number[][], f: number[]): number[] | null {
   const newest = columns[columns.length - 1];
   const nn = dot(newest, newest);
   if (columns.length === 2) {

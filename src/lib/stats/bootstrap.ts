@@ -42,9 +42,9 @@ export type IndexedStatistic = (indices: Int32Array) => number[];
  * (Efron, JASA 1987; Efron & Tibshirani, An Introduction to the Bootstrap, 1993, ch. 13–14).
  *
  * - Resample b draws n indices uniformly with replacement: index = floor(u·n), u = uint32/2³² from
- *   `seededRandom(seed)`, drawn resample by resample, position by position.
+ *   `seededRandom(seed)`, drawn resample by resample, position by position (resampleIndices).
  * - The statistic is called on the full data, then on each resample in turn, then (BCa) on each leave-one-out
- *   subset; it receives one Int32Array that is reused for every resample: read it, never keep it.
+ *   subset; it receives the indices as an Int32Array that it must only read.
  * - A resample on which the statistic throws StatsInputError or returns a non-finite value is skipped
  *   and counted in `failedResamples`; if fewer than half succeed a StatsInputError is thrown.
  * - Quantiles of the replicates: linear interpolation between order statistics (Hyndman & Fan,
@@ -153,15 +153,33 @@ function validateOptions(n: number, resamples: number, seed: number, confidence:
   }
 }
 
+/**
+ * The resample indices of a bootstrap, all resamples one after another: index = floor(u·n) with u from
+ * `seededRandom(seed)`, resample by resample, position by position. They depend only on (n, resamples, seed), so
+ * the last plan drawn is kept and handed to the next bootstrap that asks for the same one: an analysis bootstraps
+ * several fits of the same data with the same seed, and drawing the indices is a good part of a cheap refit's cost.
+ *
+ * @example
+ * resampleIndices(5, 10, 1).length; // 50: ten resamples of five indices in 0..4
+ */
+export function resampleIndices(n: number, resamples: number, seed: number): Int32Array {
+  if (lastPlan && lastPlan.n === n && lastPlan.resamples === resamples && lastPlan.seed === seed) return lastPlan.indices;
+  const rng = seededRandom(seed);
+  const indices = new Int32Array(n * resamples);
+  for (let k = 0; k < indices.length; k++) indices[k] = rng.int(n);
+  lastPlan = { n, resamples, seed, indices };
+  return indices;
+}
+let lastPlan: { n: number; resamples: number; seed: number; indices: Int32Array } | undefined;
+
 /** Runs the statistic on every resample; one index array, one Float64Array per component. */
 function drawReplicates(n: number, statistic: IndexedStatistic, resamples: number, seed: number, components: number) {
-  const rng = seededRandom(seed);
-  const indices = new Int32Array(n);
+  const plan = resampleIndices(n, resamples, seed);
   const values = Array.from({ length: components }, () => new Float64Array(resamples));
   let count = 0;
   for (let b = 0; b < resamples; b++) {
-    for (let i = 0; i < n; i++) indices[i] = rng.int(n);
-    const replicate = tryStatistic(statistic, indices, components);
+    // a fresh view per resample, so that a statistic keeping it could not see the next one change under it
+    const replicate = tryStatistic(statistic, plan.subarray(b * n, (b + 1) * n), components);
     if (replicate === null) continue;
     for (let k = 0; k < components; k++) values[k][count] = replicate[k];
     count++;

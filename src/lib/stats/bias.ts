@@ -180,12 +180,15 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
       let sumWXX = 0;
       let sumWXY = 0;
       for (let i = 0; i < size; i++) {
-        const wx = w[i] * xs[i];
-        sumW += w[i];
+        const wi = w[i];
+        const xi = xs[i];
+        const yi = ys[i];
+        const wx = wi * xi;
+        sumW += wi;
         sumWX += wx;
-        sumWY += w[i] * ys[i];
-        sumWXX += wx * xs[i];
-        sumWXY += wx * ys[i];
+        sumWY += wi * yi;
+        sumWXX += wx * xi;
+        sumWXY += wx * yi;
       }
       const sxx = sumWXX - (sumWX * sumWX) / sumW;
       if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
@@ -203,9 +206,12 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
       return Float64Array.of(nextA, nextB);
     };
     // relative change of (intercept, slope) on the original x scale, as in the full fit
-    const change = (from: Float64Array, to: Float64Array) =>
-      Math.hypot(to[0] - to[1] * centre - (from[0] - from[1] * centre), to[1] - from[1]) /
-      Math.max(1e-20, Math.hypot(from[0] - from[1] * centre, from[1]));
+    const change = (from: Float64Array, to: Float64Array) => {
+      const da = to[0] - to[1] * centre - (from[0] - from[1] * centre);
+      const db = to[1] - from[1];
+      const a = from[0] - from[1] * centre;
+      return Math.sqrt((da * da + db * db) / Math.max(1e-40, a * a + from[1] * from[1])); // Math.hypot is slow
+    };
     const [a, b] = iterateToFixedPoint(irlsStep, change, Float64Array.of(startA, startB), REFIT_TOLERANCE, REFIT_MAX_ITERATIONS).beta;
     return [a - b * centre, b];
   };

@@ -170,40 +170,20 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     const irlsStep = (beta: Float64Array): Float64Array => {
       const a = beta[0];
       const b = beta[1];
-      for (let i = 0; i < size; i++) r[i] = ys[i] - a - b * xs[i];
+      lineResiduals(xs, ys, a, b, r);
       // the previous scale only speeds up the median (madScale's hint); the result is the same
       scale = fixedScale ?? madScale(r, s, scale);
       norm.weights(r, scale, w);
-      let sumW = 0;
-      let sumWX = 0;
-      let sumWY = 0;
-      let sumWXX = 0;
-      let sumWXY = 0;
-      for (let i = 0; i < size; i++) {
-        const wi = w[i];
-        const xi = xs[i];
-        const yi = ys[i];
-        const wx = wi * xi;
-        sumW += wi;
-        sumWX += wx;
-        sumWY += wi * yi;
-        sumWXX += wx * xi;
-        sumWXY += wx * yi;
-      }
-      const sxx = sumWXX - (sumWX * sumWX) / sumW;
-      if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
-        throw new StatsInputError('the weighted line fit is singular: the weighted samples all have the same x value', { field: 'x' });
-      }
-      const nextB = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
-      const nextA = (sumWY - nextB * sumWX) / sumW;
+      const next = centredWeightedLine(xs, ys, w);
       if (first && correction) {
         // the first step from the full-data estimate, stretched by the one-step correction (a better start only)
         first = false;
-        const stepA = nextA - a;
-        const stepB = nextB - b;
-        return Float64Array.of(a + correction[0] * stepA + correction[1] * stepB, b + correction[2] * stepA + correction[3] * stepB);
+        const stepA = next[0] - a;
+        const stepB = next[1] - b;
+        next[0] = a + correction[0] * stepA + correction[1] * stepB;
+        next[1] = b + correction[2] * stepA + correction[3] * stepB;
       }
-      return Float64Array.of(nextA, nextB);
+      return next;
     };
     // relative change of (intercept, slope) on the original x scale, as in the full fit
     const change = (from: Float64Array, to: Float64Array) => {
@@ -215,6 +195,40 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     const [a, b] = iterateToFixedPoint(irlsStep, change, Float64Array.of(startA, startB), REFIT_TOLERANCE, REFIT_MAX_ITERATIONS).beta;
     return [a - b * centre, b];
   };
+}
+
+// The loops of a refit live in functions of their own, with the arrays as arguments: read through a closure's
+// captured variables, every element access would first reload the array.
+
+/** rᵢ = yᵢ − a − b·xᵢ for the first r.length samples. */
+function lineResiduals(xs: Float64Array, ys: Float64Array, a: number, b: number, r: Float64Array): void {
+  for (let i = 0; i < r.length; i++) r[i] = ys[i] - a - b * xs[i];
+}
+
+/** Weighted least-squares line [a, b] through the first w.length samples (x already centred). */
+function centredWeightedLine(xs: Float64Array, ys: Float64Array, w: Float64Array): Float64Array {
+  let sumW = 0;
+  let sumWX = 0;
+  let sumWY = 0;
+  let sumWXX = 0;
+  let sumWXY = 0;
+  for (let i = 0; i < w.length; i++) {
+    const wi = w[i];
+    const xi = xs[i];
+    const yi = ys[i];
+    const wx = wi * xi;
+    sumW += wi;
+    sumWX += wx;
+    sumWY += wi * yi;
+    sumWXX += wx * xi;
+    sumWXY += wx * yi;
+  }
+  const sxx = sumWXX - (sumWX * sumWX) / sumW;
+  if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
+    throw new StatsInputError('the weighted line fit is singular: the weighted samples all have the same x value', { field: 'x' });
+  }
+  const b = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
+  return Float64Array.of((sumWY - b * sumWX) / sumW, b);
 }
 
 /**

@@ -331,17 +331,7 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
         k = band.position;
       }
     }
-    while (k < kept) {
-      cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
-      if (cumulative >= low) break;
-      k++;
-    }
-    const lowValue = sortedSlopes[k];
-    while (cumulative < high && k < kept - 1) {
-      k++;
-      cumulative += counts[sortedFirst[k]] * counts[sortedSecond[k]];
-    }
-    return cumulative >= high ? (lowValue + sortedSlopes[k]) / 2 : Number.NaN;
+    return weightedMeanAtRanks(sortedSlopes, sortedFirst, sortedSecond, counts, k, cumulative, low, high);
   };
   return (indices) => {
     const size = indices.length;
@@ -365,6 +355,37 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     for (let i = 0; i < size; i++) o[i] = y[indices[i]] - slope * x[indices[i]];
     return [medianInPlace(o), slope];
   };
+}
+
+/**
+ * Scans the sorted slopes from position `start` (the weight of the slopes before it being `cumulative`), each slope
+ * weighted c_i·c_j, to the slopes at 1-based weighted ranks `low` ≤ `high`, and returns their mean (NaN when the
+ * ranks lie beyond the last slope). A function of its own so that the arrays are arguments, not captured variables.
+ */
+function weightedMeanAtRanks(
+  sortedSlopes: Float64Array,
+  sortedFirst: Uint16Array,
+  sortedSecond: Uint16Array,
+  counts: Int32Array,
+  start: number,
+  cumulative: number,
+  low: number,
+  high: number,
+): number {
+  const kept = sortedSlopes.length;
+  let k = start;
+  let weight = cumulative;
+  while (k < kept) {
+    weight += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+    if (weight >= low) break;
+    k++;
+  }
+  const lowValue = sortedSlopes[k];
+  while (weight < high && k < kept - 1) {
+    k++;
+    weight += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+  }
+  return weight >= high ? (lowValue + sortedSlopes[k]) / 2 : Number.NaN;
 }
 
 /**

@@ -27,10 +27,12 @@ import { diagnosticFlags, regressionDiagnostics, type RegressionDiagnostics, typ
 import { StatsInputError } from './errors';
 import { generalizedEsd, maxOutliersForShare, type EsdStep } from './esd';
 import { fitLadLine } from './lad';
+import { lineDesignMatrix } from './linear';
 import { fitRobustLine } from './mEstimator';
 import { fitMMLine } from './mm';
 import type { MNormKey } from './norms';
 import { fitOlsLine } from './ols';
+import { fitSEstimator, type SEstimate } from './sEstimator';
 import { fitPassingBablok, type PassingBablokFit } from './passingBablok';
 import type { LineFit, MethodKey } from './types';
 import { validateFinite, validatePairs, validatePositive } from './validate';
@@ -159,9 +161,10 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
   const fits: ComparisonAnalysis['fits'] = {};
   const fitErrors: ComparisonAnalysis['fitErrors'] = {};
   const cautions: Caution[] = [];
+  const sEstimate = sharedSEstimate(x, y, seed);
   for (const method of methods) {
     try {
-      fits[method] = fitMethod(method, x, y, { lambda: lambda.value, seed, start: robustStart, tuning });
+      fits[method] = fitMethod(method, x, y, { lambda: lambda.value, seed, start: robustStart, tuning, sEstimate });
     } catch (error) {
       if (!(error instanceof StatsInputError)) throw error;
       fitErrors[method] = error.message;
@@ -175,7 +178,12 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
     if (!reported) continue;
     try {
       const other = robustStart === 'ols' ? 's-estimate' : 'ols';
-      const alternative = fitRobustLine(x, y, method as MNormKey, { start: other, seed, tuning: tuning?.[method as MNormKey] });
+      const alternative = fitRobustLine(x, y, method as MNormKey, {
+        start: other,
+        seed,
+        tuning: tuning?.[method as MNormKey],
+        sEstimate: other === 's-estimate' ? sEstimate() : undefined,
+      });
       alternativeStarts[method] = pick(alternative);
       startComparisons.push({ method, reported, alternative });
     } catch (error) {
@@ -281,11 +289,38 @@ function pick(fit: LineFit) {
   return { start: fit.start, intercept: fit.intercept, slope: fit.slope, converged: fit.converged, iterations: fit.iterations };
 }
 
+/**
+ * The S-estimate of the line (seeded fast-S), computed the first time a fit asks for it and then handed to every
+ * other: Tukey's and Hampel's start and MM's first stage are the same estimate, and the search is the costly part.
+ * A failure is kept too, so that each fit asking reports it.
+ */
+function sharedSEstimate(x: number[], y: number[], seed: number): () => SEstimate {
+  let outcome: SEstimate | StatsInputError | undefined;
+  return () => {
+    if (outcome === undefined) {
+      try {
+        outcome = fitSEstimator(lineDesignMatrix(x), y, { seed });
+      } catch (error) {
+        if (!(error instanceof StatsInputError)) throw error;
+        outcome = error;
+      }
+    }
+    if (outcome instanceof StatsInputError) throw outcome;
+    return outcome;
+  };
+}
+
 function fitMethod(
   method: MethodKey,
   x: number[],
   y: number[],
-  options: { lambda: number; seed: number; start: 'ols' | 's-estimate'; tuning?: Partial<Record<MNormKey, number[]>> },
+  options: {
+    lambda: number;
+    seed: number;
+    start: 'ols' | 's-estimate';
+    tuning?: Partial<Record<MNormKey, number[]>>;
+    sEstimate: () => SEstimate;
+  },
 ): AnalysisFit {
   switch (method) {
     case 'ols':
@@ -300,9 +335,14 @@ function fitMethod(
       return fitRobustLine(x, y, 'huber', { start: 'ols', tuning: options.tuning?.huber });
     case 'tukey':
     case 'hampel':
-      return fitRobustLine(x, y, method, { start: options.start, seed: options.seed, tuning: options.tuning?.[method] });
+      return fitRobustLine(x, y, method, {
+        start: options.start,
+        seed: options.seed,
+        tuning: options.tuning?.[method],
+        sEstimate: options.start === 's-estimate' ? options.sEstimate() : undefined,
+      });
     case 'mm':
-      return fitMMLine(x, y, { seed: options.seed });
+      return fitMMLine(x, y, { seed: options.seed, sEstimate: options.sEstimate() });
     case 'lad':
       return fitLadLine(x, y, { seed: options.seed });
   }

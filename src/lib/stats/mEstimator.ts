@@ -4,7 +4,7 @@ import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, madScale, toArray, type LinearDesign } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
-import { sEstimateOnDesign } from './sEstimator';
+import { sEstimateOnDesign, type SEstimate } from './sEstimator';
 import type { LineFit, StartKind } from './types';
 import { validateConfidence, validatePairs, validatePositive } from './validate';
 
@@ -18,6 +18,11 @@ export interface MEstimatorOptions {
   confidence?: number;
   /** Seed of the S-estimate's random subsamples (only used with start 's-estimate'). */
   seed?: number;
+  /**
+   * An S-estimate of these same data already at hand (several fits of one analysis share one): with start
+   * 's-estimate' its coefficients are the start and the search is not run again.
+   */
+  sEstimate?: SEstimate;
   /** Keep the scale fixed at this value instead of re-estimating the MAD at every iteration (MM). */
   fixedScale?: number;
   /**
@@ -105,6 +110,7 @@ function startingPoint(
   norm: RobustNorm,
   start: MEstimatorOptions['start'],
   seed: number,
+  sEstimate: SEstimate | undefined,
 ): { beta: Float64Array; kind: StartKind } {
   const choice = start ?? (norm.convex ? 'ols' : 's-estimate');
   if (Array.isArray(choice)) {
@@ -119,7 +125,13 @@ function startingPoint(
     return { beta: new Float64Array(choice), kind: 'given' };
   }
   if (choice === 'ols') return { beta: design.solveWeighted(y, null), kind: 'ols' };
-  if (choice === 's-estimate') return { beta: new Float64Array(sEstimateOnDesign(design, y, { seed }).coefficients), kind: 's-estimate' };
+  if (choice === 's-estimate') {
+    if (sEstimate && sEstimate.coefficients.length !== design.p) {
+      throw new StatsInputError(`the S-estimate given has ${sEstimate.coefficients.length} coefficients, expected ${design.p}`, { field: 'sEstimate' });
+    }
+    const coefficients = (sEstimate ?? sEstimateOnDesign(design, y, { seed })).coefficients;
+    return { beta: new Float64Array(coefficients), kind: 's-estimate' };
+  }
   throw new StatsInputError(`start must be 'ols', 's-estimate' or an array of coefficients (got ${String(choice)})`, {
     field: 'start',
   });
@@ -149,7 +161,7 @@ export function mEstimateOnDesign(
   if (fixedScale !== undefined) validatePositive(fixedScale, 'fixedScale');
 
   const { n, p } = design;
-  const start = startingPoint(design, y, norm, opts.start, seed);
+  const start = startingPoint(design, y, norm, opts.start, seed, opts.sEstimate);
   const residuals = new Float64Array(n);
   const weights = new Float64Array(n);
   const scratch = new Float64Array(n);

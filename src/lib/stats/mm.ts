@@ -1,8 +1,9 @@
+import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, type LinearDesign } from './linear';
 import { lineFitFromMEstimate, mEstimateOnDesign, type MEstimate } from './mEstimator';
 import { tukeyBisquareNorm } from './norms';
 import { validateResponse } from './ols';
-import { sEstimateOnDesign, type SEstimatorOptions } from './sEstimator';
+import { sEstimateOnDesign, type SEstimate, type SEstimatorOptions } from './sEstimator';
 import type { LineFit } from './types';
 import { validatePairs } from './validate';
 
@@ -16,6 +17,8 @@ export interface MMOptions {
   tolerance?: number;
   /** Options passed to the S-estimator (subsamples, its c and b, ...). */
   sEstimator?: Omit<SEstimatorOptions, 'seed'>;
+  /** The S-estimate of these same data, when already at hand (several fits of one analysis share one). */
+  sEstimate?: SEstimate;
 }
 
 /** An MM-estimate: the M-step result plus the S-estimate it started from. */
@@ -26,7 +29,10 @@ export interface MMEstimate extends MEstimate {
 function mmOnDesign(design: LinearDesign, y: Float64Array, opts: MMOptions): MMEstimate {
   const { seed = 1, c = 4.685, confidence = 0.95, maxIterations, tolerance } = opts;
   const norm = tukeyBisquareNorm(c);
-  const s = sEstimateOnDesign(design, y, { ...opts.sEstimator, seed });
+  if (opts.sEstimate && opts.sEstimate.coefficients.length !== design.p) {
+    throw new StatsInputError(`the S-estimate given has ${opts.sEstimate.coefficients.length} coefficients, expected ${design.p}`, { field: 'sEstimate' });
+  }
+  const s = opts.sEstimate ?? sEstimateOnDesign(design, y, { ...opts.sEstimator, seed });
   const m = mEstimateOnDesign(design, y, norm, {
     start: s.coefficients,
     startKind: 's-estimate',

@@ -3,6 +3,7 @@ import { StatsInputError } from '../../../../src/lib/stats/errors';
 import { fitMEstimator, fitRobustLine } from '../../../../src/lib/stats/mEstimator';
 import { hampelNorm, huberNorm, normByKey, tukeyBisquareNorm } from '../../../../src/lib/stats/norms';
 import { fitOlsLine } from '../../../../src/lib/stats/ols';
+import { fitSEstimator } from '../../../../src/lib/stats/sEstimator';
 import { datasets, expectRelativelyClose, lineDataNames, rReference, statsmodelsReference } from './robustFixtures';
 
 const stack = rReference.stackloss;
@@ -179,5 +180,25 @@ describe('bad input', () => {
 
   it('Hampel with its default constants fits', () => {
     expect(hampelNorm().tuning).toEqual([2, 4, 8]);
+  });
+});
+
+describe('a shared S-estimate', () => {
+  it('given as sEstimate, it is the start instead of a new search: the same fit as computing it', () => {
+    const { x, y } = datasets.badLeverage;
+    const s = fitSEstimator(x.map((v) => [1, v]), y, { seed: 3 });
+    const own = fitRobustLine(x, y, 'tukey', { seed: 3 });
+    const shared = fitRobustLine(x, y, 'tukey', { seed: 3, sEstimate: s });
+    expect(shared.slope).toBe(own.slope);
+    expect(shared.start).toBe('s-estimate');
+    // a different S-estimate is really used: the start changes the iterations
+    const other = fitRobustLine(x, y, 'tukey', { sEstimate: { ...s, coefficients: [s.coefficients[0] + 5, s.coefficients[1]] } });
+    expect(other.iterations).not.toBe(own.iterations);
+  });
+
+  it('one with the wrong number of coefficients is refused', () => {
+    const { x, y } = datasets.clean;
+    const s = fitSEstimator(x.map((v) => [1, v]), y);
+    expect(() => fitRobustLine(x, y, 'hampel', { sEstimate: { ...s, coefficients: [1, 2, 3] } })).toThrow(StatsInputError);
   });
 });

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 import { fitRobustLine } from '../../../../src/lib/stats/mEstimator';
 import { fitMM, fitMMLine } from '../../../../src/lib/stats/mm';
+import { fitSEstimator } from '../../../../src/lib/stats/sEstimator';
 import { datasets, expectRelativelyClose, lineDataNames, rReference, statsmodelsReference } from './robustFixtures';
 
 const cases = [
@@ -97,5 +98,24 @@ describe('fitMMLine', () => {
   ])('%s throws StatsInputError', (_, run, message) => {
     expect(run).toThrow(StatsInputError);
     expect(run).toThrow(message);
+  });
+});
+
+describe('fitMMLine with a shared S-estimate', () => {
+  it('uses the S-estimate given (coefficients as start, scale fixed) instead of searching again', () => {
+    const { x, y } = datasets.badLeverage;
+    const s = fitSEstimator(x.map((v) => [1, v]), y, { seed: 5 });
+    const own = fitMMLine(x, y, { seed: 5 });
+    const shared = fitMMLine(x, y, { seed: 5, sEstimate: s });
+    expect(shared.slope).toBe(own.slope);
+    expect(shared.scale).toBe(s.scale);
+    const doubled = fitMMLine(x, y, { sEstimate: { ...s, scale: 2 * s.scale } });
+    expect(doubled.scale).toBe(2 * s.scale);
+  });
+
+  it('refuses an S-estimate with the wrong number of coefficients', () => {
+    const { x, y } = datasets.clean;
+    const s = fitSEstimator(x.map((v) => [1, v]), y);
+    expect(() => fitMMLine(x, y, { sEstimate: { ...s, coefficients: [1] } })).toThrow(StatsInputError);
   });
 });

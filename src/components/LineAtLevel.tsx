@@ -1,7 +1,8 @@
 import { useId, useState } from 'react';
+import { lineBias } from '../lib/stats/lineBias';
 
 /**
- * What a fitted line means at one medical decision level: B(Xc) = a + (b − 1)·Xc.
+ * What a fitted line means at one medical decision level: B(Xc) = a + (b − 1)·Xc (lineBias).
  * A point estimate only; the analysis workspace gives the confidence interval that a verdict needs.
  */
 export default function LineAtLevel() {
@@ -36,8 +37,8 @@ export default function LineAtLevel() {
           type="button"
           disabled={!ready}
           onClick={() => {
-            const bias = intercept + (slope - 1) * level;
-            setShown({ bias, percent: (100 * bias) / level });
+            const { bias, percentBias } = lineBias(intercept, slope, level);
+            setShown({ bias, percent: percentBias });
           }}
           className="rounded bg-brand-700 px-3 py-1.5 text-sm font-medium text-white hover:bg-brand-800 disabled:opacity-50"
         >

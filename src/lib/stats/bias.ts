@@ -3,6 +3,7 @@ import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { normalQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
+import { lineBias } from './lineBias';
 import { madScale, selectKth } from './linear';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
@@ -59,8 +60,7 @@ function validateLevel(level: number): void {
  */
 export function biasAtLevel(fit: LineFit, level: number): BiasAtLevel {
   validateLevel(level);
-  const bias = fit.intercept + (fit.slope - 1) * level;
-  const result: BiasAtLevel = { level, bias, percentBias: (100 * bias) / level };
+  const result: BiasAtLevel = { level, ...lineBias(fit.intercept, fit.slope, level) };
   if (biasIntervalKind(fit.method) === 'closed-form') {
     const [lo, hi] = meanResponseInterval(fit, level).ci;
     result.ci = [lo - level, hi - level];
@@ -552,7 +552,7 @@ export function bootstrapBiasIntervals(
   const refit = refitFor(fit, x, y, options.tuning);
   const statistic = (indices: Int32Array) => {
     const [a, b] = refit(indices);
-    return levels.map((level) => a + (b - 1) * level);
+    return levels.map((level) => lineBias(a, b, level).bias);
   };
   const result = bootstrapIntervals(x.length, statistic, {
     resamples: options.resamples,

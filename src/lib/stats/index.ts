@@ -2,6 +2,7 @@
  * The public API of the statistics engine: every module's exports, and ENGINE_VERSION.
  * Pure TypeScript with no I/O, shared by the CLI, the server and the tests.
  */
+export * from './acceleration';
 export * from './allowable';
 export * from './analysis';
 export * from './bias';
@@ -16,6 +17,7 @@ export * from './errors';
 export * from './esd';
 export * from './lad';
 export * from './linear';
+export * from './lineBias';
 export * from './mEstimator';
 export * from './mm';
 export * from './norms';

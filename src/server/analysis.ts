@@ -21,7 +21,9 @@ import {
   ENGINE_VERSION,
   StatsInputError,
   analyzeComparison,
+  analyzeComparisonInSteps,
   type AllowableLimit,
+  type AnalysisProgress,
   type ComparisonAnalysis,
   type ComparisonInput,
   type MethodKey,
@@ -338,27 +340,51 @@ export function engineInput(inputs: StudyInputs, withBootstrap: boolean): Compar
   };
 }
 
-function analyse(inputs: StudyInputs, withBootstrap: boolean): ComparisonAnalysis {
+function checkEnoughPairs(inputs: StudyInputs): void {
   if (inputs.included.length < 3) {
     throw new Problem(409, 'Not enough data', `An analysis needs at least 3 complete pairs; this study has ${inputs.included.length}.`);
   }
+}
+
+/** The engine's refusal of the data as a 409 for the page; anything else unchanged. */
+function asProblem(error: unknown): unknown {
+  return error instanceof StatsInputError ? new Problem(409, 'Cannot analyse these data', error.message) : error;
+}
+
+function analyse(inputs: StudyInputs, withBootstrap: boolean): ComparisonAnalysis {
+  checkEnoughPairs(inputs);
   try {
     return analyzeComparison(engineInput(inputs, withBootstrap));
   } catch (error) {
-    if (error instanceof StatsInputError) throw new Problem(409, 'Cannot analyse these data', error.message);
-    throw error;
+    throw asProblem(error);
   }
 }
 
 /**
  * The bootstrap part of a run, computed by the queued job: the full analysis from the run's own inputs, with the
- * seeded bootstrap CIs (Efron 1987) of Passing–Bablok and the robust fits.
+ * seeded bootstrap CIs (Efron 1987) of Passing–Bablok and the robust fits. Each fit's bootstrap is one step:
+ * `onProgress` hears of it before it runs, and the event loop gets a turn between steps, so that a server computing
+ * this still answers its other requests.
  *
  * @example
- * const analysis = completeAnalysis((run.results as StoredResults).inputs);
+ * const analysis = await completeAnalysis(inputs, async ({ done, total }) => progress(done / total));
  */
-export function completeAnalysis(inputs: StudyInputs): ComparisonAnalysis {
-  return analyse(inputs, true);
+export async function completeAnalysis(
+  inputs: StudyInputs,
+  onProgress: (step: AnalysisProgress) => Promise<void> = async () => {},
+): Promise<ComparisonAnalysis> {
+  checkEnoughPairs(inputs);
+  try {
+    const steps = analyzeComparisonInSteps(engineInput(inputs, true));
+    for (;;) {
+      const step = steps.next();
+      if (step.done) return step.value;
+      await onProgress(step.value);
+      await new Promise((resolve) => setImmediate(resolve));
+    }
+  } catch (error) {
+    throw asProblem(error);
+  }
 }
 
 async function latestRun(laboratoryId: string, studyId: string): Promise<AnalysisRunRow | undefined> {

@@ -101,7 +101,7 @@ export async function analysedStudy(label: string): Promise<ReportStudy> {
   }
 
   const inputs = await studyInputs(lab.id, study.id);
-  const stored: StoredResults = { analysis: completeAnalysis(inputs), inputs, bootstrap: { status: 'done', jobId: null, resamples: settings.bootstrap.resamples } };
+  const stored: StoredResults = { analysis: await completeAnalysis(inputs), inputs, bootstrap: { status: 'done', jobId: null, resamples: settings.bootstrap.resamples } };
   const inputsHash = inputsHashOf(inputs);
   const [run] = await db
     .insert(analysisRuns)

@@ -151,6 +151,31 @@ const ROBUST_WEIGHTED: readonly MethodKey[] = ['huber', 'tukey', 'hampel', 'mm']
  * analysis.biasAtDecisionLevels[0].fits.deming?.verdict; // 'within', 'beyond' or 'inconclusive'
  */
 export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
+  const steps = analyzeComparisonInSteps(input);
+  for (;;) {
+    const step = steps.next();
+    if (step.done) return step.value;
+  }
+}
+
+/** Where a stepwise analysis has got to: the bootstrap of `method`, the `done + 1`-th of `total`, comes next. */
+export interface AnalysisProgress {
+  done: number;
+  total: number;
+  method: MethodKey;
+}
+
+/**
+ * analyzeComparison one bootstrap at a time: yields an AnalysisProgress before each fit's bootstrap (the long part)
+ * and returns the same ComparisonAnalysis, so that a caller can report progress and let other work run between them.
+ *
+ * @example
+ * const steps = analyzeComparisonInSteps(input);
+ * let step = steps.next();
+ * while (!step.done) { console.log(`bootstrap ${step.value.done + 1} of ${step.value.total}`); step = steps.next(); }
+ * const analysis = step.value;
+ */
+export function* analyzeComparisonInSteps(input: ComparisonInput): Generator<AnalysisProgress, ComparisonAnalysis, void> {
   const settings = validateInput(input);
   const { sampleIds, comparative: x, candidate: y, methods, levels, limits, seed } = settings;
   const n = x.length;
@@ -230,7 +255,7 @@ export function analyzeComparison(input: ComparisonInput): ComparisonAnalysis {
   };
 
   const bootstrapSettings = input.bootstrap === false ? null : { resamples: input.bootstrap?.resamples ?? 2000, method: input.bootstrap?.method ?? 'bca' };
-  const bias = biasTable(x, y, fits, levels, limits, seed, bootstrapSettings, tuning, cautions);
+  const bias = yield* biasTable(x, y, fits, levels, limits, seed, bootstrapSettings, tuning, cautions);
 
   const correlation = pearsonCorrelation(x, y);
   cautions.unshift(
@@ -348,7 +373,7 @@ function fitMethod(
   }
 }
 
-function biasTable(
+function* biasTable(
   x: number[],
   y: number[],
   fits: ComparisonAnalysis['fits'],
@@ -358,13 +383,14 @@ function biasTable(
   bootstrap: { resamples: number; method: BootstrapMethod } | null,
   tuning: Partial<Record<MNormKey, number[]>> | undefined,
   cautions: Caution[],
-): { rows: DecisionLevelBias[]; failedResamples: Partial<Record<MethodKey, number>> } {
+): Generator<AnalysisProgress, { rows: DecisionLevelBias[]; failedResamples: Partial<Record<MethodKey, number>> }, void> {
   const rows: DecisionLevelBias[] = levels.map((level, k) => {
     const limit = limits[k];
     return limit ? { level, allowableLimit: allowableLimitAt(limit, level), fits: {} } : { level, fits: {} };
   });
   const failedResamples: Partial<Record<MethodKey, number>> = {};
   if (levels.length === 0) return { rows, failedResamples };
+  const bootstrapped = bootstrap ? (Object.keys(fits) as MethodKey[]).filter((m) => biasIntervalKind(m) === 'bootstrap') : [];
   for (const method of Object.keys(fits) as MethodKey[]) {
     const fit = fits[method] as LineFit;
     const perLevel: FitBias[] = levels.map((level) => {
@@ -374,6 +400,7 @@ function biasTable(
       return entry;
     });
     if (biasIntervalKind(method) === 'bootstrap' && bootstrap) {
+      yield { done: bootstrapped.indexOf(method), total: bootstrapped.length, method };
       try {
         const result = bootstrapBiasIntervals(x, y, fit, levels, { ...bootstrap, seed, tuning });
         failedResamples[method] = result.failedResamples;

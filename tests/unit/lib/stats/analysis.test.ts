@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { ENGINE_VERSION, analyzeComparison, compactAnalysis, type ComparisonInput } from '../../../../src/lib/stats/index';
+import { ENGINE_VERSION, analyzeComparison, analyzeComparisonInSteps, compactAnalysis, type AnalysisProgress, type ComparisonInput } from '../../../../src/lib/stats/index';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 
 // Bland & Altman, Lancet 1986: peak expiratory flow (l/min), first readings, Wright (comparative) and mini Wright
@@ -165,5 +165,28 @@ describe('analyzeComparison cautions', () => {
     const codes = analysis.cautions.map((c) => c.code);
     expect(codes).toEqual(expect.arrayContaining(['fewer-than-planned', 'poor-spread', 'many-excluded']));
     expect(analysis.cautions.find((c) => c.code === 'many-excluded')?.message).toContain('3 of 43');
+  });
+});
+
+describe('analyzeComparisonInSteps', () => {
+  it('stops before each bootstrap in turn and ends with the same analysis as analyzeComparison', () => {
+    const input: ComparisonInput = { ...pef, decisionLevels: [300, 450], bootstrap: { resamples: 200 } };
+    const steps = analyzeComparisonInSteps(input);
+    const seen: AnalysisProgress[] = [];
+    let step = steps.next();
+    while (!step.done) {
+      seen.push(step.value);
+      step = steps.next();
+    }
+    expect(seen.map((p) => p.method)).toEqual(['passingBablok', 'huber', 'tukey', 'hampel', 'mm']);
+    expect(seen.map((p) => p.done)).toEqual([0, 1, 2, 3, 4]);
+    expect(seen.every((p) => p.total === 5)).toBe(true);
+    expect(step.value).toEqual(analyzeComparison(input));
+  });
+
+  it('without a bootstrap there is nothing to wait for', () => {
+    const steps = analyzeComparisonInSteps({ ...cleanStudy(), decisionLevels: [200], bootstrap: false });
+    const first = steps.next();
+    expect(first.done).toBe(true);
   });
 });

@@ -1,8 +1,8 @@
 import { defineMiddleware } from 'astro:middleware';
 import { PUBLIC_BASE_URL } from 'astro:env/server';
-import { getAuth } from './server/auth';
+import { requestSession } from './server/auth';
 import { outageProblem } from './server/health';
-import { labBySlug, laboratoryForToken, membershipsOf } from './server/laboratories';
+import { labBySlug, laboratoryForToken } from './server/laboratories';
 import { notFound, problemResponse, Problem, unauthenticated } from './server/problem';
 import { ensureWorkers } from './server/workers';
 
@@ -54,11 +54,11 @@ export const onRequest = defineMiddleware(async (context, next) => {
   }
 
   try {
-    const current = await getAuth().api.getSession({ headers: request.headers });
+    const current = await requestSession(request.headers);
     if (current) {
       locals.user = current.user;
       locals.session = current.session;
-      locals.memberships = await membershipsOf(current.user.id);
+      locals.memberships = current.memberships;
     }
   } catch (error) {
     // With the database away, say so (503) rather than answer an empty 500.

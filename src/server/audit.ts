@@ -4,7 +4,7 @@
  * canonical content), so changing or deleting any row breaks every link after it.
  */
 import { createHash } from 'node:crypto';
-import { and, asc, desc, eq, isNull, sql } from 'drizzle-orm';
+import { and, asc, eq, isNull, sql } from 'drizzle-orm';
 import { canonicalJson } from '../lib/canonicalJson';
 import type { Database } from '../db/client';
 import { auditEvents } from '../db/schema';
@@ -46,19 +46,14 @@ const labScope = (laboratoryId: string | null) =>
   laboratoryId ? eq(auditEvents.laboratoryId, laboratoryId) : isNull(auditEvents.laboratoryId);
 
 /**
- * Appends one event to its laboratory's chain. Call it inside the transaction that makes the change;
- * an advisory lock per chain keeps concurrent writers from forking the chain.
+ * The arguments of append_audit_event (drizzle/0005_audit_append.sql) for one event, in its parameter order
+ * (laboratory, actor, action, entity type, entity id, data as JSON, time as ISO text, canonical content), with the
+ * event as it will be stored; for a statement that appends its own event (src/server/results.ts, a new grid row).
+ *
+ * @example
+ * const { event, args } = auditArguments({ laboratoryId, actorUserId, action: 'sample.created', entityType: 'sample', entityId });
  */
-export async function recordAudit(tx: Executor, input: AuditInput): Promise<AuditRow> {
-  const chainKey = input.laboratoryId ?? 'no-laboratory';
-  await tx.execute(sql`select pg_advisory_xact_lock(hashtext(${`audit:${chainKey}`}))`);
-  const [last] = await tx
-    .select({ hash: auditEvents.hash })
-    .from(auditEvents)
-    .where(labScope(input.laboratoryId))
-    .orderBy(desc(auditEvents.id))
-    .limit(1);
-  const prevHash = last?.hash ?? GENESIS_HASH;
+export function auditArguments(input: AuditInput) {
   const event = {
     laboratoryId: input.laboratoryId,
     actorUserId: input.actorUserId,
@@ -68,11 +63,35 @@ export async function recordAudit(tx: Executor, input: AuditInput): Promise<Audi
     data: input.data ?? {},
     occurredAt: new Date(),
   };
-  const [row] = await tx
-    .insert(auditEvents)
-    .values({ ...event, prevHash, hash: chainHash(prevHash, event) })
-    .returning();
-  return row;
+  const args = [event.laboratoryId, event.actorUserId, event.action, event.entityType, event.entityId, JSON.stringify(event.data), event.occurredAt.toISOString(), contentOf(event)] as const;
+  return { event, args };
+}
+
+/**
+ * Appends one event to its laboratory's chain. Call it inside the transaction that makes the change, as its last
+ * statement: the chain's advisory lock (taken by append_audit_event, drizzle/0005_audit_append.sql, which also reads
+ * the last hash and stores sha256(previous hash + "\n" + content)) keeps concurrent writers from forking the chain
+ * and is held until that transaction commits.
+ *
+ * @example
+ * await recordAudit(tx, { laboratoryId, actorUserId: user.id, action: 'study.opened', entityType: 'study', entityId: study.id });
+ */
+export async function recordAudit(tx: Executor, input: AuditInput): Promise<AuditRow> {
+  const { event, args } = auditArguments(input);
+  const [laboratoryId, actorUserId, action, entityType, entityId, data, occurredAt, content] = args;
+  const { rows } = await tx.execute<StoredAuditRow>(
+    sql`select * from append_audit_event(${laboratoryId}::uuid, ${actorUserId}, ${action}, ${entityType}, ${entityId}, ${data}::jsonb, ${occurredAt}::timestamptz, ${content})`,
+  );
+  const [row] = rows;
+  return { ...event, id: Number(row.id), data: row.data, prevHash: row.prev_hash, hash: row.hash };
+}
+
+/** The columns of append_audit_event's row that the stored event adds to what the caller gave. */
+interface StoredAuditRow extends Record<string, unknown> {
+  id: string;
+  data: unknown;
+  prev_hash: string;
+  hash: string;
 }
 
 export type ChainReport =

@@ -3,15 +3,17 @@
  * reset, database sessions in HttpOnly cookies, and rate limits kept in the database so that they hold
  * across restarts and across several app servers.
  */
+import { createHmac, timingSafeEqual } from 'node:crypto';
 import { betterAuth } from 'better-auth';
 import { drizzleAdapter } from 'better-auth/adapters/drizzle';
 import { APIError, createAuthMiddleware, getSessionFromCtx } from 'better-auth/api';
 import { verifyPassword } from 'better-auth/crypto';
-import { and, count, eq, gt, sql } from 'drizzle-orm';
+import { and, asc, count, eq, gt, sql } from 'drizzle-orm';
 import { BETTER_AUTH_SECRET, PUBLIC_BASE_URL, SIGN_IN_LIMIT_PER_MINUTE } from 'astro:env/server';
 import { getDb } from './db';
 import * as schema from '../db/schema';
 import { recordAudit } from './audit';
+import { membershipsOf, type LabMembership } from './laboratories';
 import { sendMail } from './mail';
 import { passwordResetMail, verificationMail } from './mailTemplates';
 
@@ -20,6 +22,8 @@ export const CLIENT_IP_HEADER = 'x-biaswise-client-ip';
 /** Failed sign-ins per address within the window before that account is refused for a while. */
 export const ACCOUNT_LOCK = { failures: 5, minutes: 15 } as const;
 export const SESSION_HOURS = 12;
+/** A session used this long after it was last extended is extended again (better-auth's updateAge). */
+const SESSION_REFRESH_SECONDS = 15 * 60;
 
 function createAuth() {
   const db = getDb();
@@ -49,7 +53,7 @@ function createAuth() {
     },
     session: {
       expiresIn: SESSION_HOURS * 3600,
-      updateAge: 15 * 60,
+      updateAge: SESSION_REFRESH_SECONDS,
       additionalFields: { activeLaboratoryId: { type: 'string', required: false, input: false } },
     },
     rateLimit: {
@@ -133,4 +137,81 @@ export async function reauthenticate(userId: string, password: string): Promise<
     .where(and(eq(schema.account.userId, userId), eq(schema.account.providerId, 'credential')));
   if (!credential?.hash || !password) return false;
   return verifyPassword({ hash: credential.hash, password });
+}
+
+/** The signed-in person of a request, with their laboratories: what the middleware puts on Astro.locals. */
+export interface RequestSession {
+  user: SessionData['user'];
+  session: SessionData['session'];
+  memberships: LabMembership[];
+}
+
+/** The session row, its user and each membership with its laboratory, by session token: one prepared statement. */
+let sessionByToken: ReturnType<typeof prepareSessionByToken> | undefined;
+function prepareSessionByToken() {
+  const { session, user, memberships, laboratories } = schema;
+  return getDb()
+    .select({
+      session,
+      user,
+      membership: { laboratoryId: laboratories.id, slug: laboratories.slug, name: laboratories.name, role: memberships.role },
+    })
+    .from(session)
+    .innerJoin(user, eq(user.id, session.userId))
+    .leftJoin(memberships, eq(memberships.userId, session.userId))
+    .leftJoin(laboratories, eq(laboratories.id, memberships.laboratoryId))
+    .where(eq(session.token, sql.placeholder('token')))
+    .orderBy(asc(laboratories.name))
+    .prepare('request_session');
+}
+
+/**
+ * The session token of a request's signed session cookie, or null when there is none or its signature (HMAC-SHA256
+ * with the auth secret, base64, appended after a dot, as better-auth signs it) does not match.
+ */
+function signedSessionToken(cookieHeader: string, cookieName: string): string | null {
+  for (const part of cookieHeader.split(';')) {
+    const at = part.indexOf('=');
+    if (at < 0 || part.slice(0, at).trim() !== cookieName) continue;
+    let value = part.slice(at + 1).trim();
+    try {
+      value = decodeURIComponent(value);
+    } catch {
+      return null;
+    }
+    const dot = value.lastIndexOf('.');
+    if (dot < 1) return null;
+    const token = value.slice(0, dot);
+    const given = Buffer.from(value.slice(dot + 1));
+    const expected = Buffer.from(createHmac('sha256', BETTER_AUTH_SECRET).update(token).digest('base64'));
+    return given.length === expected.length && timingSafeEqual(given, expected) ? token : null;
+  }
+  return null;
+}
+
+/**
+ * The request's session, user and memberships, read from the database on every request (so a signed-out or revoked
+ * session is refused at once, in every server process) in one query. A session that has expired or is due to be
+ * extended goes through better-auth's own getSession, which removes or extends it.
+ *
+ * @example
+ * const current = await requestSession(request.headers); // null when signed out
+ */
+export async function requestSession(headers: Headers): Promise<RequestSession | null> {
+  const cookieName = (await getAuth().$context).authCookies.sessionToken.name;
+  const token = signedSessionToken(headers.get('cookie') ?? '', cookieName);
+  if (!token) return null;
+  sessionByToken ??= prepareSessionByToken();
+  const rows = await sessionByToken.execute({ token });
+  if (rows.length === 0) return null;
+  const { session, user } = rows[0];
+  const extendAfter = session.expiresAt.getTime() - SESSION_HOURS * 3600_000 + SESSION_REFRESH_SECONDS * 1000;
+  if (extendAfter <= Date.now()) {
+    const checked = await getAuth().api.getSession({ headers });
+    if (!checked) return null;
+    return { user: checked.user, session: checked.session, memberships: await membershipsOf(checked.user.id) };
+  }
+  // A left join's columns are typed nullable; a membership row has them all, one without any has none.
+  const memberships = rows.flatMap(({ membership: m }) => (m && m.laboratoryId && m.slug && m.name && m.role ? [{ laboratoryId: m.laboratoryId, slug: m.slug, name: m.name, role: m.role }] : []));
+  return { user, session, memberships };
 }

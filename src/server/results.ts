@@ -3,12 +3,13 @@
  * saved one row at a time with optimistic concurrency, and the bulk path shared by CSV imports and the results
  * API (all rows or none). A change to a saved value needs a reason and is audited with old and new values.
  */
+import { randomUUID } from 'node:crypto';
 import { and, asc, eq, inArray, isNull, sql } from 'drizzle-orm';
 import { getDb } from './db';
 import { apiTokens, importLogs, results, samples, type ImportSource } from '../db/schema';
-import { recordAudit } from './audit';
-import { conflict, invalid, notFound, type FieldError } from './problem';
-import { isUuid, lockCollectingStudy } from './studies';
+import { auditArguments, recordAudit } from './audit';
+import { conflict, invalid, notFound, Problem, type FieldError } from './problem';
+import { collectingStudyRules, isUuid, lockCollectingStudy } from './studies';
 import { sha256 } from './laboratories';
 import {
   checkSampleRow,
@@ -201,7 +202,8 @@ function invalidRow(errors: RowMessage[]) {
  * const { row, warnings } = await saveRow({ userId: user.id, tokenName: null }, lab.id, studyId, null, body);
  */
 export async function saveRow(writer: Writer, laboratoryId: string, studyId: string | undefined, sampleId: string | null, body: RowSave) {
-  if (sampleId !== null && !isUuid(sampleId)) throw notFound('sample');
+  if (sampleId === null) return createRow(writer, laboratoryId, studyId, body);
+  if (!isUuid(sampleId)) throw notFound('sample');
   return getDb().transaction(async (tx) => {
     const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId, 'share');
     const checked = checkSampleRow(rowText(body), rules);
@@ -213,26 +215,6 @@ export async function saveRow(writer: Writer, laboratoryId: string, studyId: str
       .select({ id: samples.id })
       .from(samples)
       .where(and(eq(samples.studyId, study.id), sql`lower(${samples.code}) = lower(${row.code})`));
-
-    if (sampleId === null) {
-      if (sameCode) throw conflict(`Sample ${row.code} is already in this study (someone may have just saved it); here is the saved row.`, { current: await current(sameCode.id) });
-      const [{ next }] = await tx.select({ next: sql<number>`coalesce(max(${samples.position}), 0)::int + 1` }).from(samples).where(eq(samples.studyId, study.id));
-      const [sample] = await tx
-        .insert(samples)
-        .values({ laboratoryId, studyId: study.id, code: row.code, position: next, flags: row.flags ?? [], flagNote: row.flagNote ?? null })
-        .returning();
-      const plan = planResults([], row.results, 'remove');
-      await applyPlan(tx, { laboratoryId, studyId: study.id, sampleId: sample.id, units: rules.units, writer }, plan, row.runDate);
-      await recordAudit(tx, {
-        laboratoryId,
-        actorUserId: writer.userId,
-        action: 'sample.created',
-        entityType: 'sample',
-        entityId: sample.id,
-        data: { studyId: study.id, code: row.code, results: plan.added, runDate: row.runDate ?? null, flags: row.flags ?? [], flagNote: row.flagNote ?? null },
-      });
-      return { row: await current(sample.id), warnings: checked.warnings };
-    }
 
     const [sample] = await tx.select().from(samples).where(and(eq(samples.id, sampleId), eq(samples.studyId, study.id), eq(samples.laboratoryId, laboratoryId))).for('update');
     if (!sample) throw notFound('sample');
@@ -263,6 +245,7 @@ export async function saveRow(writer: Writer, laboratoryId: string, studyId: str
       .update(samples)
       .set({ code: row.code, flags: row.flags ?? [], flagNote: row.flagNote ?? null, version: sample.version + 1, updatedAt: new Date() })
       .where(eq(samples.id, sample.id));
+    const saved = await current(sample.id);
     await recordAudit(tx, {
       laboratoryId,
       actorUserId: writer.userId,
@@ -271,8 +254,100 @@ export async function saveRow(writer: Writer, laboratoryId: string, studyId: str
       entityId: sample.id,
       data: { studyId: study.id, code: row.code, changes: [...changed, ...plan.added, ...metaChanges], ...(changed.length > 0 ? { reason: body.reason } : {}) },
     });
-    return { row: await current(sample.id), warnings: checked.warnings };
+    return { row: saved, warnings: checked.warnings };
   });
+}
+
+/**
+ * A new grid row as one statement (so one round trip, and its own transaction): the study row taken FOR SHARE while
+ * it is collecting, as lockCollectingStudy does for every results write; the sample, unless its code is already in
+ * the study (compared case-blind; the same code racing in answers 409 through the unique index); its results; and
+ * its audit event, appended by append_audit_event ($14…$21), whose chain lock is then held only until this statement
+ * commits. Named, so each connection plans it once. It answers whether the study was collecting, the sample that
+ * already has the code, and the new sample's position and version (and the event's id, so that the audit part,
+ * a plain SELECT, runs at all).
+ */
+const NEW_ROW_STATEMENT = {
+  name: 'save_new_grid_row',
+  text: `
+with study as (
+  select id from studies where id = $2::uuid and laboratory_id = $1::uuid and state = 'collecting' for share
+), same_code as (
+  select id from samples where study_id = $2::uuid and lower(code) = lower($4::text) limit 1
+), sample as (
+  insert into samples (id, laboratory_id, study_id, code, position, flags, flag_note)
+  select $3::uuid, $1::uuid, study.id, $4::text, (select coalesce(max(position), 0) + 1 from samples where study_id = $2::uuid), $5::text[], $6::text
+  from study where not exists (select 1 from same_code)
+  returning id, position, version
+), stored as (
+  insert into results (laboratory_id, study_id, sample_id, procedure, replicate, value, censored, unit, run_date, entered_by)
+  select $1::uuid, $2::uuid, sample.id, given.procedure, given.replicate, given.value, given.censored, $11::text, $12::date, $13::text
+  from sample, unnest($7::text[], $8::int[], $9::float8[], $10::text[]) as given(procedure, replicate, value, censored)
+  returning id
+), audit as (
+  select event.id from sample, append_audit_event($14::uuid, $15::text, $16::text, $17::text, $18::text, $19::jsonb, $20::timestamptz, $21::text) as event
+)
+select exists (select 1 from study) as collecting, (select id from same_code) as same_code_id, sample.position, sample.version,
+  (select count(*) from stored)::int as results, (select id from audit) as audit_id
+from (values (1)) as one (x) left join sample on true`,
+};
+
+interface NewRowOutcome {
+  collecting: boolean;
+  same_code_id: string | null;
+  position: number | null;
+  version: number | null;
+}
+
+/** saveRow for a new sample (see NEW_ROW_STATEMENT). */
+async function createRow(writer: Writer, laboratoryId: string, studyIdInPath: string | undefined, body: RowSave) {
+  const rules = await collectingStudyRules(laboratoryId, studyIdInPath);
+  // The id as the database writes it (the path may spell it in capitals): it goes into the audit event.
+  const studyId = studyIdInPath!.toLowerCase();
+  const checked = checkSampleRow(rowText(body), rules);
+  if (!checked.row) throw invalidRow(checked.errors);
+  const row = checked.row;
+  const sampleId = randomUUID();
+  const plan = planResults([], row.results, 'remove');
+  const runDate = row.runDate ?? null;
+  const flags = row.flags ?? [];
+  const flagNote = row.flagNote ?? null;
+  const { args: audit } = auditArguments({
+    laboratoryId,
+    actorUserId: writer.userId,
+    action: 'sample.created',
+    entityType: 'sample',
+    entityId: sampleId,
+    data: { studyId, code: row.code, results: plan.added, runDate, flags, flagNote },
+  });
+  const given = plan.inserts.map((r) => ({ procedure: r.procedure, replicate: r.replicate, value: r.result!.value, censored: r.result!.censored }));
+  const { rows } = await getDb().$client.query<NewRowOutcome>({
+    ...NEW_ROW_STATEMENT,
+    values: [
+      laboratoryId, studyId, sampleId, row.code, flags, flagNote,
+      given.map((r) => r.procedure), given.map((r) => r.replicate), given.map((r) => r.value), given.map((r) => r.censored),
+      rules.units, runDate, writer.userId,
+      ...audit,
+    ],
+  });
+  const [outcome] = rows;
+  if (!outcome.collecting) {
+    // The study left collection (or was removed) since its rules were read: the same refusal, read again.
+    await collectingStudyRules(laboratoryId, studyId);
+    throw new Problem(409, 'Study changed', 'The study changed while the row was being saved; nothing was saved. Reload and try again.');
+  }
+  if (outcome.same_code_id) {
+    const [current] = await loadRows(getDb(), studyId, rules.replicates, [outcome.same_code_id]);
+    throw conflict(`Sample ${row.code} is already in this study (someone may have just saved it); here is the saved row.`, { current });
+  }
+  const cells = (procedure: Procedure) =>
+    Array.from({ length: rules.replicates }, (_, i) => {
+      const found = given.find((r) => r.procedure === procedure && r.replicate === i + 1);
+      return found ? { value: found.value, censored: found.censored, text: formatResultValue(found) } : null;
+    });
+  // The row as stored, from what the statement wrote and answered: no second read.
+  const saved: GridRow = { id: sampleId, code: row.code, position: outcome.position!, version: outcome.version!, runDate: given.length > 0 ? runDate : null, flags, flagNote, comparative: cells('comparative'), candidate: cells('candidate') };
+  return { row: saved, warnings: checked.warnings };
 }
 
 /** The most per-row errors a refusal lists (the detail says how many there were). */

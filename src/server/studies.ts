@@ -249,8 +249,40 @@ export async function lockCollectingStudy(tx: Tx & Executor, laboratoryId: strin
     .where(and(eq(studies.id, studyId), eq(studies.laboratoryId, laboratoryId)))
     .for(mode, { of: studies });
   if (!row) throw notFound('study');
-  if (row.study.state !== 'collecting') {
-    throw new Problem(409, 'Study not collecting results', `Results can be entered only while the study is collecting results; this study is ${row.study.state.replace('_', ' ')}.`);
-  }
+  refuseUnlessCollecting(row.study.state);
   return { study: row.study, rules: resultRulesOf(row.settings as ProtocolSettings) };
+}
+
+function refuseUnlessCollecting(state: StudyState) {
+  if (state !== 'collecting') {
+    throw new Problem(409, 'Study not collecting results', `Results can be entered only while the study is collecting results; this study is ${state.replace('_', ' ')}.`);
+  }
+}
+
+/** A study's state and its protocol version's settings, by study and laboratory: one prepared statement. */
+let studyStateAndSettings: ReturnType<typeof prepareStudyStateAndSettings> | undefined;
+function prepareStudyStateAndSettings() {
+  return getDb()
+    .select({ state: studies.state, settings: protocolVersions.settings })
+    .from(studies)
+    .innerJoin(protocolVersions, eq(protocolVersions.id, studies.protocolVersionId))
+    .where(and(eq(studies.id, sql.placeholder('studyId')), eq(studies.laboratoryId, sql.placeholder('laboratoryId'))))
+    .prepare('study_state_and_settings');
+}
+
+/**
+ * The result rules of a study that is collecting results (404 and 409 as lockCollectingStudy), read without a lock:
+ * for a write that takes the study's lock in its own statement and checks the state again there (a new grid row).
+ * The rules cannot change meanwhile: a study keeps its protocol version, and an approved version is frozen.
+ *
+ * @example
+ * const rules = await collectingStudyRules(lab.id, studyId);
+ */
+export async function collectingStudyRules(laboratoryId: string, studyId: string | undefined): Promise<ResultRules> {
+  if (!isUuid(studyId)) throw notFound('study');
+  studyStateAndSettings ??= prepareStudyStateAndSettings();
+  const [row] = await studyStateAndSettings.execute({ studyId, laboratoryId });
+  if (!row) throw notFound('study');
+  refuseUnlessCollecting(row.state);
+  return resultRulesOf(row.settings as ProtocolSettings);
 }

@@ -99,7 +99,7 @@ describe('PostgreSQL stopped in the middle of an import', () => {
       'the import waiting on the audit lock with its rows written',
       async () => {
         const { rows } = await holder.query<{ n: number }>(
-          `select count(*)::int as n from pg_stat_activity where wait_event_type = 'Lock' and wait_event = 'advisory' and query like '%pg_advisory_xact_lock%'`,
+          `select count(*)::int as n from pg_stat_activity where wait_event_type = 'Lock' and wait_event = 'advisory' and query like '%append_audit_event%'`,
         );
         return rows[0].n === 1 ? true : undefined;
       },

@@ -1,0 +1,2 @@
+CREATE INDEX "samples_study_code_lower_idx" ON "samples" USING btree ("study_id",lower("code"));--> statement-breakpoint
+CREATE INDEX "samples_study_position_idx" ON "samples" USING btree ("study_id","position");

@@ -8,7 +8,7 @@ export interface HttpSession {
   post(path: string, body?: unknown): Promise<Response>;
   patch(path: string, body?: unknown): Promise<Response>;
   put(path: string, body?: unknown): Promise<Response>;
-  delete(path: string): Promise<Response>;
+  delete(path: string, body?: unknown): Promise<Response>;
   readonly cookie: string;
 }
 
@@ -48,7 +48,7 @@ export function createHttpSession(baseUrl: string, initialCookie = ''): HttpSess
     post: (path, body) => session.request('POST', path, body),
     patch: (path, body) => session.request('PATCH', path, body),
     put: (path, body) => session.request('PUT', path, body),
-    delete: (path) => session.request('DELETE', path),
+    delete: (path, body) => session.request('DELETE', path, body),
   };
   return session;
 }

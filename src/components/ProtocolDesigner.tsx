@@ -36,6 +36,8 @@ interface Props {
   rowVersion: number;
   updatedAt: string;
   canApprove: boolean;
+  /** Whether an earlier version is approved: discarding then goes back to it, otherwise the protocol goes away. */
+  hasApprovedVersion: boolean;
 }
 
 type Values = ProtocolSettingsInput;
@@ -62,9 +64,9 @@ const buttonClass = 'rounded border border-neutral-300 bg-white px-2.5 py-1 text
  * The designer for one draft version (see the file comment).
  *
  * @example
- * <ProtocolDesigner client:load slug="eastmere" protocolId={p.id} versionId={v.id} versionNumber={1} settings={v.settings} rowVersion={v.version} updatedAt={iso} canApprove />
+ * <ProtocolDesigner client:load slug="eastmere" protocolId={p.id} versionId={v.id} versionNumber={1} settings={v.settings} rowVersion={v.version} updatedAt={iso} canApprove hasApprovedVersion={false} />
  */
-export default function ProtocolDesigner({ slug, protocolId, versionId, versionNumber, settings, rowVersion, updatedAt, canApprove }: Props) {
+export default function ProtocolDesigner({ slug, protocolId, versionId, versionNumber, settings, rowVersion, updatedAt, canApprove, hasApprovedVersion }: Props) {
   const base = `/api/labs/${slug}/protocols/${protocolId}/versions/${versionId}`;
   const hydrated = useHydrated();
   const defaultValues = useMemo(() => fromStored(settings), [settings]);
@@ -172,6 +174,24 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
     () => setShowSummary(true),
   );
 
+  const [confirmingDiscard, setConfirmingDiscard] = useState(false);
+  const [discarding, setDiscarding] = useState(false);
+  const discard = async () => {
+    setDiscarding(true);
+    clearTimeout(timer.current);
+    try {
+      if (inFlight.current) await inFlight.current;
+      const { protocolDeleted } = await api<{ protocolDeleted: boolean }>('DELETE', base, { version: versionRef.current });
+      window.location.assign(protocolDeleted ? `/labs/${slug}/protocols` : `/labs/${slug}/protocols/${protocolId}`);
+    } catch (error) {
+      setConfirmingDiscard(false);
+      if (error instanceof ApiError && error.status === 409) setConflict(error.problem.detail);
+      else setNotice(error instanceof ApiError ? error.problem.detail : 'The server could not be reached; nothing was discarded.');
+    } finally {
+      setDiscarding(false);
+    }
+  };
+
   const onPrimaryChange = (method: string) => {
     if ((PSI_FAMILIES as readonly string[]).includes(method)) {
       const psi = method as PsiFamily;
@@ -232,12 +252,35 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
         <p role="status" aria-live="polite" className="text-sm text-neutral-700" data-testid="save-status">
           {status}
         </p>
+        {confirmingDiscard ? (
+          <span role="group" aria-label="Discard this draft" className="ml-auto flex flex-wrap items-center gap-2 text-sm" data-testid="discard-confirm">
+            <span className="text-attention-800">
+              ⚠ Discard version {versionNumber}? Its changes are lost;{' '}
+              {hasApprovedVersion ? 'the protocol stays at its approved version.' : 'the protocol was never approved, so it goes too.'}
+            </span>
+            <button type="button" onClick={() => void discard()} disabled={discarding} className="rounded border border-attention-700 px-3 py-1 font-medium text-attention-800 hover:bg-attention-50 disabled:opacity-60">
+              {discarding ? 'Discarding…' : 'Discard'}
+            </button>
+            <button type="button" onClick={() => setConfirmingDiscard(false)} disabled={discarding} className="rounded px-3 py-1 text-neutral-700 underline">
+              Keep editing
+            </button>
+          </span>
+        ) : (
+          <button
+            type="button"
+            onClick={() => setConfirmingDiscard(true)}
+            disabled={approving || !hydrated}
+            className="ml-auto rounded px-3 py-1.5 text-sm text-neutral-700 underline hover:text-attention-800 disabled:opacity-60"
+          >
+            Discard this draft
+          </button>
+        )}
         {canApprove && (
           <button
             type="button"
             onClick={() => void approve()}
             disabled={approving || !!conflict || !hydrated}
-            className="ml-auto rounded bg-brand-700 px-4 py-1.5 font-medium text-white hover:bg-brand-800 focus:outline-2 focus:outline-offset-2 focus:outline-brand-600 disabled:opacity-60"
+            className="rounded bg-brand-700 px-4 py-1.5 font-medium text-white hover:bg-brand-800 focus:outline-2 focus:outline-offset-2 focus:outline-brand-600 disabled:opacity-60"
           >
             {approving ? 'Approving…' : `Approve version ${versionNumber}`}
           </button>

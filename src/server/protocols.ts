@@ -388,6 +388,48 @@ export async function approveVersion(
 }
 
 /**
+ * Discards a draft version (the row version the caller saw, else 409; an approved version answers 409 too).
+ * A protocol that was never approved goes with its only draft; otherwise the protocol is back at its newest
+ * approved version, whose settings the list shows again. Drafts are never used by a study, so nothing else changes.
+ * Audited as 'protocol.draft_discarded' with the discarded settings' hash.
+ *
+ * @example
+ * const { protocolDeleted } = await discardDraft(user.id, lab.id, protocolId, versionId, { version: 7 });
+ */
+export async function discardDraft(
+  actorId: string,
+  laboratoryId: string,
+  protocolId: string,
+  versionId: string,
+  body: z.output<typeof approveBodySchema>,
+): Promise<{ protocolDeleted: boolean }> {
+  return getDb().transaction(async (tx) => {
+    // the protocol row first, in the order startNextVersion locks, so that the two cannot deadlock
+    if (!isUuid(protocolId)) throw notFound('protocol version');
+    await tx.select({ id: protocols.id }).from(protocols).where(and(eq(protocols.id, protocolId), eq(protocols.laboratoryId, laboratoryId))).for('update');
+    const draft = await lockDraft(tx, laboratoryId, protocolId, versionId, body.version);
+    await tx.delete(protocolVersions).where(eq(protocolVersions.id, versionId));
+    const [approved] = await tx
+      .select({ settings: protocolVersions.settings })
+      .from(protocolVersions)
+      .where(eq(protocolVersions.protocolId, protocolId))
+      .orderBy(desc(protocolVersions.versionNumber))
+      .limit(1);
+    if (approved) await tx.update(protocols).set(listColumns(approved.settings as ProtocolSettings)).where(eq(protocols.id, protocolId));
+    else await tx.delete(protocols).where(eq(protocols.id, protocolId));
+    await recordAudit(tx, {
+      laboratoryId,
+      actorUserId: actorId,
+      action: 'protocol.draft_discarded',
+      entityType: 'protocol_version',
+      entityId: versionId,
+      data: { protocolId, versionNumber: draft.versionNumber, settingsHash: settingsHash(draft.settings), protocolDeleted: !approved },
+    });
+    return { protocolDeleted: !approved };
+  });
+}
+
+/**
  * Editing an approved protocol: starts the next version as a draft copy of the newest approved settings.
  * When the newest version is already a draft, that draft is returned (`created: false`) rather than a second one.
  *

@@ -146,4 +146,15 @@ test('a lab scientist builds a protocol from a template by keyboard and approves
   const newPage = await technicianPage.goto(`${labPath}/protocols/new`);
   expect(newPage?.status()).toBe(403);
   await technicianContext.close();
+
+  // The scientist thinks better of version 2 and discards it, after a confirmation: the protocol is back at version 1.
+  await page.reload();
+  await expect(page.getByTestId('protocol-designer')).toHaveAttribute('data-ready', 'true');
+  await page.getByRole('button', { name: 'Discard this draft' }).click();
+  const confirmation = page.getByTestId('discard-confirm');
+  await expect(confirmation).toContainText('Discard version 2? Its changes are lost; the protocol stays at its approved version.');
+  await confirmation.getByRole('button', { name: 'Discard', exact: true }).click();
+  await expect(page.getByTestId('shown-version')).toContainText(`Version 1 · ✔ Approved by ${scientist.name}`);
+  await expect(page.getByTestId('shown-version')).not.toContainText('draft in progress');
+  await expect(page.getByTestId('versions-table').locator('tbody tr')).toHaveCount(1);
 });

@@ -211,3 +211,43 @@ describe('protocol permissions', () => {
     expect((await outsider.get(`/api/labs/${other.slug}/protocols/not-a-uuid`)).status).toBe(404);
   });
 });
+
+describe('discarding a draft', () => {
+  it('a next version goes back to the approved one; a never-approved protocol goes away; approved ones and stale versions are refused', async () => {
+    const lab = await createLabWithMembers('proto-discard');
+    const scientist = await signIn(lab.people.lab_scientist.email);
+    const technician = await signIn(lab.people.technician.email);
+
+    // Version 1 approved, version 2 started and edited, then discarded.
+    const { protocolId, draft, base } = await glucoseDraft(scientist, lab);
+    expect((await scientist.post(`${base}/approve`, { version: draft.version })).status).toBe(200);
+    const next = ((await (await scientist.post(`/api/labs/${lab.slug}/protocols/${protocolId}/versions`)).json()) as { version: VersionBody }).version;
+    const nextBase = `/api/labs/${lab.slug}/protocols/${protocolId}/versions/${next.id}`;
+    const edited = await scientist.put(nextBase, { settings: { ...next.settings, title: 'Glucose, a second thought' }, version: next.version });
+    const editedVersion = ((await edited.json()) as { version: VersionBody }).version.version;
+
+    expect((await technician.delete(nextBase, { version: editedVersion })).status).toBe(403);
+    const stale = await scientist.delete(nextBase, { version: next.version });
+    expect(stale.status).toBe(409);
+    expect((await scientist.delete(base, { version: 2 })).status).toBe(409); // approved: frozen
+    const other = await createLabWithMembers('proto-discard-other');
+    const outsider = await signIn(other.people.lab_scientist.email);
+    expect((await outsider.delete(`/api/labs/${other.slug}/protocols/${protocolId}/versions/${next.id}`, { version: editedVersion })).status).toBe(404);
+
+    const discarded = await scientist.delete(nextBase, { version: editedVersion });
+    expect(discarded.status).toBe(200);
+    expect(await discarded.json()).toEqual({ protocolDeleted: false });
+    const versions = await db.select().from(protocolVersions).where(eq(protocolVersions.protocolId, protocolId));
+    expect(versions.map((v) => [v.versionNumber, v.status])).toEqual([[1, 'approved']]);
+    const list = (await (await scientist.get(`/api/labs/${lab.slug}/protocols`)).json()) as { protocols: { id: string; title: string }[] };
+    expect(list.protocols.find((p) => p.id === protocolId)?.title).toBe(draft.settings.title); // the list shows version 1 again
+    const [event] = await db.select().from(auditEvents).where(and(eq(auditEvents.laboratoryId, lab.id), eq(auditEvents.action, 'protocol.draft_discarded')));
+    expect(event).toMatchObject({ entityId: next.id, actorUserId: lab.people.lab_scientist.id, data: { protocolId, versionNumber: 2, protocolDeleted: false } });
+
+    // A protocol that never had an approved version is removed with its draft.
+    const lone = await glucoseDraft(scientist, lab);
+    const gone = await scientist.delete(lone.base, { version: lone.draft.version });
+    expect(await gone.json()).toEqual({ protocolDeleted: true });
+    expect((await scientist.get(`/api/labs/${lab.slug}/protocols/${lone.protocolId}`)).status).toBe(404);
+  });
+});

@@ -179,6 +179,15 @@ export const ROUTES: RouteEntry[] = [
     },
   },
   {
+    route: '/api/labs/[slug]/protocols/[protocolId]/versions/[versionId]',
+    method: 'DELETE',
+    access: lab('protocol.edit'),
+    params: (o) => ({ slug: o.lab.slug, protocolId: o.protocolId, versionId: o.approvedVersionId }),
+    body: 'json',
+    // The approved version refuses to be discarded with 409, so the corpus never deletes.
+    input: { valid: () => ({ version: 1 }), fields: [{ path: 'version', kind: 'int', required: true }] },
+  },
+  {
     route: '/api/labs/[slug]/protocols/[protocolId]/versions/[versionId]/approve',
     method: 'POST',
     access: lab('protocol.approve'),

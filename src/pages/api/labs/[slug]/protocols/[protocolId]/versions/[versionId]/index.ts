@@ -1,5 +1,5 @@
 import { endpoint, json, requireLab } from '../../../../../../../../server/endpoint';
-import { getVersion, saveDraft, saveDraftBodySchema } from '../../../../../../../../server/protocols';
+import { approveBodySchema, discardDraft, getVersion, saveDraft, saveDraftBodySchema } from '../../../../../../../../server/protocols';
 import { parseBody, readJson } from '../../../../../../../../server/problem';
 
 export const GET = endpoint(async ({ locals, params }) => {
@@ -12,4 +12,11 @@ export const PUT = endpoint(async ({ locals, params, request }) => {
   const { lab, user } = requireLab(locals, 'protocol.edit');
   const body = parseBody(saveDraftBodySchema, await readJson(request));
   return json(await saveDraft(user.id, lab.id, params.protocolId!, params.versionId!, body));
+});
+
+/** Discards a draft, with the row version the caller saw: `{ version }`; an approved version answers 409. */
+export const DELETE = endpoint(async ({ locals, params, request }) => {
+  const { lab, user } = requireLab(locals, 'protocol.edit');
+  const body = parseBody(approveBodySchema, await readJson(request));
+  return json(await discardDraft(user.id, lab.id, params.protocolId!, params.versionId!, body));
 });

@@ -1,10 +1,10 @@
-import { iterateToFixedPoint } from './acceleration';
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { normalQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { lineBias } from './lineBias';
-import { madScale, selectKth } from './linear';
+import { createLineDesign, selectKth } from './linear';
+import { irlsOnDesign } from './mEstimator';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
 import { fitPassingBablok } from './passingBablok';
@@ -108,14 +108,17 @@ export interface BootstrapBiasResult {
   intervals: [number, number][];
 }
 
-/** Relative coefficient change at which a bootstrap refit stops: far below the bootstrap's own spread. */
-const REFIT_TOLERANCE = 1e-6;
+/**
+ * Relative coefficient change at which a bootstrap refit stops: far below the bootstrap's own spread, and small
+ * enough that the slope's error times a high decision level stays well under the intervals' last reported digit.
+ */
+const REFIT_TOLERANCE = 1e-7;
 const REFIT_MAX_ITERATIONS = 200;
 
 /**
- * Warm-started refit for the bootstrap of a robust fit, by the same IRLS as the full fit (u = r/s, weights w(u),
- * weighted least squares, stop at a relative change ‖Δβ‖/‖β‖ of 1e-6, accelerated near the end as the full fit is)
- * but returning only the coefficients, with every buffer allocated once per bootstrap rather than once per resample.
+ * Warm-started refit for the bootstrap of a robust fit, by the full fit's own IRLS loop (irlsOnDesign: u = r/s,
+ * weights w(u), weighted least squares, accelerated near the end) stopped at a relative change ‖Δβ‖/‖β‖ of 1e-7,
+ * returning only the coefficients, with the work buffers allocated once per bootstrap rather than once per resample.
  * - Huber, Tukey, Hampel: MAD scale re-estimated every iteration, started from the full-data estimate instead of
  *   from OLS or a fresh S-estimate per resample.
  * - MM: the full-data S-scale is kept fixed and the bisquare M-step starts from the full-data MM coefficients.
@@ -144,91 +147,45 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     throw new StatsInputError(`the ${fit.method} fit takes its bias CI in closed form, not from the bootstrap`, { field: 'fit.method' });
   }
   const n = x.length;
-  // x is centred at the full-data mean so that one-pass weighted sums stay accurate
   const centre = x.reduce((sum, v) => sum + v, 0) / n;
   const xs = new Float64Array(n);
   const ys = new Float64Array(n);
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
   const weights = new Float64Array(n);
-  const startA = fit.intercept + fit.slope * centre;
-  const startB = fit.slope;
   // only for convex ρ (Huber), whose solution is unique: a redescending fit could be sent to another local minimum
-  const correction = norm.convex ? oneStepCorrection(x, y, centre, startA, startB, fit.scale ?? 0, norm) : null;
+  const correction = norm.convex
+    ? oneStepCorrection(x, y, centre, fit.intercept + fit.slope * centre, fit.slope, fit.scale ?? 0, norm)
+    : null;
+  /** The first step stretched by the correction, which acts on (intercept at the centre, slope). */
+  const corrected = correction
+    ? (from: Float64Array, to: Float64Array) => {
+        const stepA = to[0] + to[1] * centre - (from[0] + from[1] * centre);
+        const stepB = to[1] - from[1];
+        const slope = from[1] + correction[2] * stepA + correction[3] * stepB;
+        const atCentre = from[0] + from[1] * centre + correction[0] * stepA + correction[1] * stepB;
+        return Float64Array.of(atCentre - slope * centre, slope);
+      }
+    : undefined;
   return (indices) => {
     const size = indices.length;
-    const r = size === n ? residuals : residuals.subarray(0, size);
-    const s = size === n ? scratch : scratch.subarray(0, size);
-    const w = size === n ? weights : weights.subarray(0, size);
+    const view = (buffer: Float64Array) => (size === n ? buffer : buffer.subarray(0, size));
+    const rx = view(xs);
+    const ry = view(ys);
     for (let i = 0; i < size; i++) {
-      xs[i] = x[indices[i]] - centre;
-      ys[i] = y[indices[i]];
+      rx[i] = x[indices[i]];
+      ry[i] = y[indices[i]];
     }
-    let scale = fixedScale ?? fit.scale ?? 0;
-    let first = true;
-    /** One IRLS step in the centred coordinates (a at `centre`, b). */
-    const irlsStep = (beta: Float64Array): Float64Array => {
-      const a = beta[0];
-      const b = beta[1];
-      lineResiduals(xs, ys, a, b, r);
-      // the previous scale only speeds up the median (madScale's hint); the result is the same
-      scale = fixedScale ?? madScale(r, s, scale);
-      norm.weights(r, scale, w);
-      const next = centredWeightedLine(xs, ys, w);
-      if (first && correction) {
-        // the first step from the full-data estimate, stretched by the one-step correction (a better start only)
-        first = false;
-        const stepA = next[0] - a;
-        const stepB = next[1] - b;
-        next[0] = a + correction[0] * stepA + correction[1] * stepB;
-        next[1] = b + correction[2] * stepA + correction[3] * stepB;
-      }
-      return next;
-    };
-    // relative change of (intercept, slope) on the original x scale, as in the full fit
-    const change = (from: Float64Array, to: Float64Array) => {
-      const da = to[0] - to[1] * centre - (from[0] - from[1] * centre);
-      const db = to[1] - from[1];
-      const a = from[0] - from[1] * centre;
-      return Math.sqrt((da * da + db * db) / Math.max(1e-40, a * a + from[1] * from[1])); // Math.hypot is slow
-    };
-    const [a, b] = iterateToFixedPoint(irlsStep, change, Float64Array.of(startA, startB), REFIT_TOLERANCE, REFIT_MAX_ITERATIONS).beta;
-    return [a - b * centre, b];
+    const { beta } = irlsOnDesign(createLineDesign(rx), ry, norm, Float64Array.of(fit.intercept, fit.slope), {
+      fixedScale,
+      scaleHint: fit.scale,
+      tolerance: REFIT_TOLERANCE,
+      maxIterations: REFIT_MAX_ITERATIONS,
+      buffers: { residuals: view(residuals), weights: view(weights), scratch: view(scratch) },
+      adjustFirstStep: corrected,
+    });
+    return [beta[0], beta[1]];
   };
-}
-
-// The loops of a refit live in functions of their own, with the arrays as arguments: read through a closure's
-// captured variables, every element access would first reload the array.
-
-/** rᵢ = yᵢ − a − b·xᵢ for the first r.length samples. */
-function lineResiduals(xs: Float64Array, ys: Float64Array, a: number, b: number, r: Float64Array): void {
-  for (let i = 0; i < r.length; i++) r[i] = ys[i] - a - b * xs[i];
-}
-
-/** Weighted least-squares line [a, b] through the first w.length samples (x already centred). */
-function centredWeightedLine(xs: Float64Array, ys: Float64Array, w: Float64Array): Float64Array {
-  let sumW = 0;
-  let sumWX = 0;
-  let sumWY = 0;
-  let sumWXX = 0;
-  let sumWXY = 0;
-  for (let i = 0; i < w.length; i++) {
-    const wi = w[i];
-    const xi = xs[i];
-    const yi = ys[i];
-    const wx = wi * xi;
-    sumW += wi;
-    sumWX += wx;
-    sumWY += wi * yi;
-    sumWXX += wx * xi;
-    sumWXY += wx * yi;
-  }
-  const sxx = sumWXX - (sumWX * sumWX) / sumW;
-  if (!(sumW > 0) || !(sxx > 1e-12 * sumWXX)) {
-    throw new StatsInputError('the weighted line fit is singular: the weighted samples all have the same x value', { field: 'x' });
-  }
-  const b = (sumWXY - (sumWX * sumWY) / sumW) / sxx;
-  return Float64Array.of((sumWY - b * sumWX) / sumW, b);
 }
 
 /**

@@ -137,6 +137,63 @@ function startingPoint(
   });
 }
 
+/** Where IRLS stopped, with the final fit's residuals and their weights at the final scale. */
+export interface IrlsResult {
+  beta: Float64Array;
+  /** The scale of the last step (the MAD of the residuals it started from, or the fixed scale). */
+  scale: number;
+  iterations: number;
+  converged: boolean;
+  residuals: Float64Array;
+  weights: Float64Array;
+}
+
+/** Options of irlsOnDesign; work buffers may be lent so that repeated fits (bootstrap resamples) allocate nothing. */
+export interface IrlsOptions {
+  fixedScale?: number;
+  /** A scale near the first MAD, which only speeds its median up (the result is the same). */
+  scaleHint?: number;
+  tolerance: number;
+  maxIterations: number;
+  accelerate?: boolean;
+  buffers?: { residuals: Float64Array; weights: Float64Array; scratch: Float64Array };
+  /** Replaces the first step's result (a better start, e.g. a one-step correction); later steps are plain IRLS. */
+  adjustFirstStep?: (from: Float64Array, to: Float64Array) => Float64Array;
+}
+
+/**
+ * The IRLS iteration itself (Holland & Welsch, Commun Stat 1977): from β, residuals r = y − Xβ, the scale
+ * s = median(|r|)/0.6745 unless fixed, weights w(r/s), weighted least squares; until ‖Δβ‖/‖β‖ ≤ tolerance or
+ * maxIterations, accelerated near the end (acceleration.ts). Shared by every M-estimate and by the bootstrap refits.
+ *
+ * @example
+ * irlsOnDesign(createLineDesign(x), new Float64Array(y), huberNorm(), Float64Array.of(0, 1), { tolerance: 1e-10, maxIterations: 200 }).beta;
+ */
+export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: RobustNorm, start: Float64Array, options: IrlsOptions): IrlsResult {
+  const { fixedScale, tolerance, maxIterations, accelerate = true, adjustFirstStep } = options;
+  const { n } = design;
+  const residuals = options.buffers?.residuals ?? new Float64Array(n);
+  const weights = options.buffers?.weights ?? new Float64Array(n);
+  const scratch = options.buffers?.scratch ?? new Float64Array(n);
+  let scale = fixedScale ?? options.scaleHint ?? 0;
+  let first = adjustFirstStep !== undefined;
+  /** One IRLS step from β: residuals, the MAD scale (unless fixed), weights, weighted least squares. */
+  const irlsStep = (beta: Float64Array): Float64Array => {
+    design.residuals(y, beta, residuals);
+    if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
+    norm.weights(residuals, scale, weights);
+    const next = design.solveWeighted(y, weights);
+    if (!first) return next;
+    first = false;
+    return adjustFirstStep!(beta, next);
+  };
+  const { beta, iterations, converged } = iterateToFixedPoint(irlsStep, relativeChange, start, tolerance, maxIterations, accelerate);
+  // the weights of the final fit's own residuals
+  design.residuals(y, beta, residuals);
+  norm.weights(residuals, scale, weights);
+  return { beta, scale, iterations, converged, residuals, weights };
+}
+
 /**
  * IRLS on a prepared design; the shared core of fitMEstimator, fitRobustLine and the MM step
  * (MM passes `fixedScale` and its S-estimate as `start`, reported through `startKind`). Formulas as fitMEstimator.
@@ -162,22 +219,12 @@ export function mEstimateOnDesign(
 
   const { n, p } = design;
   const start = startingPoint(design, y, norm, opts.start, seed, opts.sEstimate);
-  const residuals = new Float64Array(n);
-  const weights = new Float64Array(n);
-  const scratch = new Float64Array(n);
-  let scale = fixedScale ?? 0;
-  /** One IRLS step from β: residuals, the MAD scale (unless fixed), weights, weighted least squares. */
-  const irlsStep = (beta: Float64Array): Float64Array => {
-    design.residuals(y, beta, residuals);
-    if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
-    norm.weights(residuals, scale, weights);
-    return design.solveWeighted(y, weights);
-  };
-
-  const { beta, iterations, converged } = iterateToFixedPoint(irlsStep, relativeChange, start.beta, tolerance, maxIterations, accelerate);
-  // report the weights of the final fit's own residuals
-  design.residuals(y, beta, residuals);
-  norm.weights(residuals, scale, weights);
+  const { beta, scale, iterations, converged, residuals, weights } = irlsOnDesign(design, y, norm, start.beta, {
+    fixedScale,
+    tolerance,
+    maxIterations,
+    accelerate,
+  });
 
   const covariance = sandwichCovariance(design, residuals, scale, norm);
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
-import { fitMEstimator, fitRobustLine } from '../../../../src/lib/stats/mEstimator';
+import { createLineDesign } from '../../../../src/lib/stats/linear';
+import { fitMEstimator, fitRobustLine, irlsOnDesign } from '../../../../src/lib/stats/mEstimator';
 import { hampelNorm, huberNorm, normByKey, tukeyBisquareNorm } from '../../../../src/lib/stats/norms';
 import { fitOlsLine } from '../../../../src/lib/stats/ols';
 import { fitSEstimator } from '../../../../src/lib/stats/sEstimator';
@@ -200,5 +201,31 @@ describe('a shared S-estimate', () => {
     const { x, y } = datasets.clean;
     const s = fitSEstimator(x.map((v) => [1, v]), y);
     expect(() => fitRobustLine(x, y, 'hampel', { sEstimate: { ...s, coefficients: [1, 2, 3] } })).toThrow(StatsInputError);
+  });
+});
+
+describe('irlsOnDesign', () => {
+  it('a first-step adjustment changes only the way there (convex ρ), and lent buffers hold the final residuals', () => {
+    const { x, y } = datasets.yOutliers;
+    const design = createLineDesign(x);
+    const ys = new Float64Array(y);
+    const start = Float64Array.of(0, 1);
+    let calls = 0;
+    const adjusted = irlsOnDesign(design, ys, huberNorm(), start, {
+      tolerance: 1e-12,
+      maxIterations: 200,
+      adjustFirstStep: (from, to) => {
+        calls++;
+        return Float64Array.of(to[0] + 3, to[1]); // a deliberately worse first step
+      },
+    });
+    const buffers = { residuals: new Float64Array(x.length), weights: new Float64Array(x.length), scratch: new Float64Array(x.length) };
+    const plain = irlsOnDesign(design, ys, huberNorm(), start, { tolerance: 1e-12, maxIterations: 200, buffers });
+    expect(calls).toBe(1);
+    expect(adjusted.beta[1]).toBeCloseTo(plain.beta[1], 9);
+    expect(plain.residuals).toBe(buffers.residuals);
+    expect(plain.residuals[0]).toBeCloseTo(y[0] - plain.beta[0] - plain.beta[1] * x[0], 12);
+    // MASS::rlm (robustFixtures): the same Huber fit
+    expect(plain.beta[1]).toBeCloseTo(rReference.yOutliers.huber.coefficients[1], 7);
   });
 });

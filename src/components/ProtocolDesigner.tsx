@@ -261,7 +261,15 @@ export default function ProtocolDesigner({ slug, protocolId, versionId, versionN
             <button type="button" onClick={() => void discard()} disabled={discarding} className="rounded border border-attention-700 px-3 py-1 font-medium text-attention-800 hover:bg-attention-50 disabled:opacity-60">
               {discarding ? 'Discarding…' : 'Discard'}
             </button>
-            <button type="button" onClick={() => setConfirmingDiscard(false)} disabled={discarding} className="rounded px-3 py-1 text-neutral-700 underline">
+            {/* the safe choice takes the focus that the "Discard this draft" button had */}
+            <button
+              type="button"
+              autoFocus
+              onClick={() => setConfirmingDiscard(false)}
+              onKeyDown={(event) => event.key === 'Escape' && setConfirmingDiscard(false)}
+              disabled={discarding}
+              className="rounded px-3 py-1 text-neutral-700 underline"
+            >
               Keep editing
             </button>
           </span>

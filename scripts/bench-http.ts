@@ -11,6 +11,7 @@ import { createRequire } from 'node:module';
 import os from 'node:os';
 import { DEMO_LAB, DEMO_PASSWORD, DEMO_PEOPLE, DEMO_STUDY_TITLE, demoPairs } from './demo';
 import { signedInSession, type HttpSession } from './http-session';
+import { webProcesses } from './stacks';
 import { openStudyOnDemoProtocol, startThrowawayStack, type ThrowawayStack } from './throwaway-stack';
 
 const CONNECTIONS = 50;
@@ -128,7 +129,8 @@ function report(rows: { what: string; figures: Figures; targetMs?: number }[]) {
   const widths = header.map((h, k) => Math.max(h.length, ...cells.map((r) => r[k].length)) + 2);
   const line = (r: string[]) => r.map((c, k) => (k >= 1 && k <= 5 ? c.padStart(widths[k] - 2).padEnd(widths[k]) : c.padEnd(widths[k]))).join('').trimEnd();
   const loadAverage = os.loadavg().map((v) => v.toFixed(2)).join(' ');
-  console.log(`\nHTTP bench — built server on loopback, ${CONNECTIONS} clients × ${DURATION_SECONDS} s per load; Node ${process.version}, ${os.cpus().length} cores, load average ${loadAverage}`);
+  const processes = webProcesses();
+  console.log(`\nHTTP bench — built server on loopback (${processes} process${processes === 1 ? '' : 'es'}, WEB_PROCESSES), ${CONNECTIONS} clients × ${DURATION_SECONDS} s per load; Node ${process.version}, ${os.cpus().length} cores, load average ${loadAverage}`);
   console.log(line(header));
   for (const r of cells) console.log(line(r));
 }

@@ -1,8 +1,39 @@
-/** What every throwaway stack (integration tests, fault test, load bench) needs: free ports and cleaning up after killed runs. */
+/**
+ * What every stack (npm start, integration tests, fault test, load bench) needs: the built server started one way,
+ * free ports, and cleaning up after killed runs.
+ */
+import { spawn, type ChildProcess, type StdioOptions } from 'node:child_process';
 import { readdirSync } from 'node:fs';
 import { createServer } from 'node:net';
-import { DATA_DIR } from './local';
+import { availableParallelism } from 'node:os';
+import { DATA_DIR, ROOT } from './local';
 import { processAlive, removeCluster } from './postgres';
+
+/**
+ * How many processes scripts/serve.ts runs: WEB_PROCESSES, or one per core but one, since the database (npm start's
+ * own cluster) runs on the same machine and needs a core. Measured with npm run bench:http on 2 cores, one process
+ * saved rows faster than two (p95 82 ms at 794 saves/s against 102 ms at 632/s): two processes competed with
+ * PostgreSQL and the clients for the same cores.
+ *
+ * @example
+ * webProcesses(); // 1 on a 2-core machine without WEB_PROCESSES
+ */
+export function webProcesses(): number {
+  const count = Number(process.env.WEB_PROCESSES ?? Math.max(1, availableParallelism() - 1));
+  if (!Number.isInteger(count) || count < 1) throw new Error(`WEB_PROCESSES must be a whole number of at least 1, not "${process.env.WEB_PROCESSES}".`);
+  return count;
+}
+
+/**
+ * Starts the built server (`npx astro build` first) as scripts/serve.ts does it: several processes on one port.
+ * `env` is the whole environment the server gets (HOST, PORT, DATABASE_URL, …; WEB_PROCESSES sets how many).
+ *
+ * @example
+ * const server = spawnServer({ ...process.env, PORT: '4321', DATABASE_URL: url }, ['ignore', 'ignore', 'inherit']);
+ */
+export function spawnServer(env: NodeJS.ProcessEnv, stdio: StdioOptions): ChildProcess {
+  return spawn(process.execPath, ['--import', 'tsx', `${ROOT}scripts/serve.ts`], { cwd: ROOT, env, stdio });
+}
 
 /**
  * A TCP port on 127.0.0.1 that nothing listens on right now.

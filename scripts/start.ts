@@ -1,13 +1,15 @@
 /**
  * `npm start`: PostgreSQL (the project's own cluster unless DATABASE_URL is set), migrations, the demo lab
- * when the database is empty, the local SMTP fake, a production build, and the server on 127.0.0.1:4321.
+ * when the database is empty, the local SMTP fake, a production build, and the server on 127.0.0.1:4321
+ * (scripts/serve.ts: WEB_PROCESSES processes sharing the port).
  * `npm run dev` does the same with Astro's dev server instead of the build.
  */
 import { spawn, spawnSync } from 'node:child_process';
+import { spawnServer } from './stacks';
 import { createDatabase } from '../src/db/client';
 import { applyMigrations } from './migrate';
 import { DEMO_LAB, DEMO_PASSWORD, DEMO_PEOPLE, isEmpty, seedDemo } from './demo';
-import { APP_SMTP_PORT, APP_WEB_PORT, DATA_DIR, ROOT, SERVER_ENTRY, appDatabaseUrl, authSecret } from './local';
+import { APP_SMTP_PORT, APP_WEB_PORT, DATA_DIR, ROOT, appDatabaseUrl, authSecret } from './local';
 import { seedSignedStudy } from './demo-signed';
 import { startSmtpFake } from './smtp-fake';
 import { waitForHealth } from './wait-for-health';
@@ -49,7 +51,7 @@ if (!dev) {
 
 const server = dev
   ? spawn('npx', ['astro', 'dev', '--host', host, '--port', String(port)], { cwd: ROOT, stdio: 'inherit', env })
-  : spawn(process.execPath, [SERVER_ENTRY], { cwd: ROOT, stdio: 'inherit', env });
+  : spawnServer(env, 'inherit');
 
 if (seeding) {
   await waitForHealth(`http://${host}:${port}`);

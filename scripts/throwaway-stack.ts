@@ -3,16 +3,16 @@
  * port with the migrations and the demo laboratory, and the BUILT server as a child process that the caller may
  * stop, kill and start again. Nothing is shared with the integration stack or the project's own database.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
-import { existsSync, mkdirSync } from 'node:fs';
+import type { ChildProcess } from 'node:child_process';
+import { existsSync, mkdirSync, readFileSync } from 'node:fs';
 import { createDatabase, type Database } from '../src/db/client';
 import { DEMO_LAB, DEMO_STUDY_TITLE, seedDemo } from './demo';
 import type { HttpSession } from './http-session';
-import { DATA_DIR, ROOT, SERVER_ENTRY } from './local';
+import { DATA_DIR, SERVER_ENTRY } from './local';
 import { applyMigrations } from './migrate';
-import { ensureCluster, removeCluster, type Cluster } from './postgres';
+import { ensureCluster, processAlive, removeCluster, type Cluster } from './postgres';
 import { waitForHealth } from './wait-for-health';
-import { freePort, removeAbandoned } from './stacks';
+import { freePort, removeAbandoned, spawnServer } from './stacks';
 
 export interface ThrowawayStack {
   cluster: Cluster;
@@ -23,13 +23,65 @@ export interface ThrowawayStack {
   readonly server: ChildProcess | null;
   /** Starts the built server and waits until /api/health answers 200. */
   startServer(): Promise<void>;
-  /** Sends `signal` to the server and waits for the process to end. */
+  /** Sends `signal` to the server (SIGKILL: to each of its processes) and waits until they have all ended. */
   stopServer(signal?: NodeJS.Signals): Promise<void>;
+  /**
+   * Starts another server on the same cluster, with the same secret and settings, on a port of its own (as two app
+   * servers of one deployment); returns its base URL. remove() stops it.
+   */
+  startOtherServer(): Promise<string>;
   /** Server, pool and cluster, all gone. */
   remove(): Promise<void>;
 }
 
 const PREFIX = 'throwaway-';
+
+/** The worker processes the server's primary (scripts/serve.ts) has forked, as Linux lists a process's children. */
+function serverProcesses(primaryPid: number): number[] {
+  try {
+    return readFileSync(`/proc/${primaryPid}/task/${primaryPid}/children`, 'utf8').trim().split(/\s+/).filter(Boolean).map(Number);
+  } catch {
+    return [];
+  }
+}
+
+/** Whether a process runs: it exists and has not ended as a zombie (ended, not yet reaped by its new parent). */
+function stillRunning(pid: number): boolean {
+  if (!processAlive(pid)) return false;
+  try {
+    return readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1]?.[0] !== 'Z';
+  } catch {
+    return false;
+  }
+}
+
+/** Waits until none of `pids` runs; after 10 s the ones left are killed. */
+async function processesEnded(pids: number[]) {
+  const deadline = Date.now() + 10_000;
+  for (;;) {
+    const left = pids.filter(stillRunning);
+    if (left.length === 0) return;
+    if (Date.now() > deadline) {
+      for (const pid of left) process.kill(pid, 'SIGKILL');
+      return;
+    }
+    await new Promise((resolve) => setTimeout(resolve, 20));
+  }
+}
+
+/** Sends `signal` to a server (SIGKILL: to each of its processes) and waits until they have all ended. */
+async function stopProcesses(primary: ChildProcess, signal: NodeJS.Signals) {
+  if (primary.exitCode !== null || primary.signalCode !== null) return;
+  const ended = new Promise<void>((resolve) => primary.once('exit', () => resolve()));
+  const workers = serverProcesses(primary.pid!);
+  primary.kill(signal);
+  // Killing the server kills all of its processes at once, as a crash would; a worker left to notice its
+  // primary gone could still finish a job first.
+  if (signal === 'SIGKILL') for (const pid of workers.filter(stillRunning)) process.kill(pid, 'SIGKILL');
+  await ended;
+  // Otherwise the primary passes the signal on; either way, wait until no process of this server runs.
+  await processesEnded(workers);
+}
 
 /**
  * Creates the cluster (folder .data/throwaway-<name>-<pid>), migrates it, seeds the demo laboratory and prepares the
@@ -55,15 +107,23 @@ export async function startThrowawayStack(name: string, options: { env?: Record<
   const webPort = await freePort();
   const baseUrl = `http://127.0.0.1:${webPort}`;
   let server: ChildProcess | null = null;
+  const serverEnv = (port: number) => ({
+    ...process.env,
+    HOST: '127.0.0.1',
+    PORT: String(port),
+    DATABASE_URL: cluster.url,
+    BETTER_AUTH_SECRET: `throwaway-only-secret-${name}-0123456789abcdef`,
+    PUBLIC_BASE_URL: baseUrl,
+    SIGN_IN_LIMIT_PER_MINUTE: '1000',
+    ...env,
+  });
+  const others: ChildProcess[] = [];
 
   const stopServer = async (signal: NodeJS.Signals = 'SIGTERM') => {
     const running = server;
     if (!running) return;
     server = null;
-    if (running.exitCode !== null || running.signalCode !== null) return;
-    const ended = new Promise<void>((resolve) => running.once('exit', () => resolve()));
-    running.kill(signal);
-    await ended;
+    await stopProcesses(running, signal);
   };
 
   return {
@@ -75,25 +135,20 @@ export async function startThrowawayStack(name: string, options: { env?: Record<
     },
     async startServer() {
       if (server) throw new Error('the server is already running');
-      server = spawn(process.execPath, [SERVER_ENTRY], {
-        cwd: ROOT,
-        env: {
-          ...process.env,
-          HOST: '127.0.0.1',
-          PORT: String(webPort),
-          DATABASE_URL: cluster.url,
-          BETTER_AUTH_SECRET: `throwaway-only-secret-${name}-0123456789abcdef`,
-          PUBLIC_BASE_URL: baseUrl,
-          SIGN_IN_LIMIT_PER_MINUTE: '1000',
-          ...env,
-        },
-        stdio: ['ignore', 'ignore', serverStderr],
-      });
+      server = spawnServer(serverEnv(webPort), ['ignore', 'ignore', serverStderr]);
       await waitForHealth(baseUrl, 60);
     },
     stopServer,
+    async startOtherServer() {
+      const port = await freePort();
+      const other = spawnServer(serverEnv(port), ['ignore', 'ignore', serverStderr]);
+      others.push(other);
+      const otherUrl = `http://127.0.0.1:${port}`;
+      await waitForHealth(otherUrl, 60);
+      return otherUrl;
+    },
     async remove() {
-      await stopServer('SIGKILL');
+      await Promise.all([stopServer('SIGKILL'), ...others.map((other) => stopProcesses(other, 'SIGKILL'))]);
       await db.$client.end().catch(() => {});
       removeCluster(dataDir);
     },

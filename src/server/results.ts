@@ -9,7 +9,7 @@ import { getDb } from './db';
 import { apiTokens, importLogs, results, samples, type ImportSource } from '../db/schema';
 import { auditArguments, recordAudit } from './audit';
 import { conflict, invalid, notFound, Problem, type FieldError } from './problem';
-import { collectingStudyRules, isUuid, lockCollectingStudy } from './studies';
+import { collectingStudyRules, isUuid, knownStudyRules, lockCollectingStudy } from './studies';
 import { sha256 } from './laboratories';
 import {
   checkSampleRow,
@@ -301,11 +301,16 @@ interface NewRowOutcome {
 
 /** saveRow for a new sample (see NEW_ROW_STATEMENT). */
 async function createRow(writer: Writer, laboratoryId: string, studyIdInPath: string | undefined, body: RowSave) {
-  const rules = await collectingStudyRules(laboratoryId, studyIdInPath);
+  // The statement checks the state; a study that is not collecting is refused before its row is checked, as always.
+  const known = knownStudyRules(laboratoryId, studyIdInPath);
+  const rules = known ?? (await collectingStudyRules(laboratoryId, studyIdInPath));
   // The id as the database writes it (the path may spell it in capitals): it goes into the audit event.
   const studyId = studyIdInPath!.toLowerCase();
   const checked = checkSampleRow(rowText(body), rules);
-  if (!checked.row) throw invalidRow(checked.errors);
+  if (!checked.row) {
+    if (known) await collectingStudyRules(laboratoryId, studyId);
+    throw invalidRow(checked.errors);
+  }
   const row = checked.row;
   const sampleId = randomUUID();
   const plan = planResults([], row.results, 'remove');

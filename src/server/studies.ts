@@ -271,9 +271,17 @@ function prepareStudyStateAndSettings() {
 }
 
 /**
- * The result rules of a study that is collecting results (404 and 409 as lockCollectingStudy), read without a lock:
+ * Result rules by laboratory and study, as last read while the study was collecting. Nothing here goes out of date,
+ * in this process or another: a study keeps its protocol version for good (a new revision is a new study) and an
+ * approved version is frozen by the database (drizzle/0002_protocol_version_freeze.sql). The state, which does
+ * change, is not kept: the write that uses these rules checks it in its own statement.
+ */
+const rulesByStudy = new Map<string, ResultRules>();
+const REMEMBERED_STUDIES = 1000;
+
+/**
+ * The result rules of a study that is collecting results (404 and 409 as lockCollectingStudy), read without a lock,
  * for a write that takes the study's lock in its own statement and checks the state again there (a new grid row).
- * The rules cannot change meanwhile: a study keeps its protocol version, and an approved version is frozen.
  *
  * @example
  * const rules = await collectingStudyRules(lab.id, studyId);
@@ -284,5 +292,19 @@ export async function collectingStudyRules(laboratoryId: string, studyId: string
   const [row] = await studyStateAndSettings.execute({ studyId, laboratoryId });
   if (!row) throw notFound('study');
   refuseUnlessCollecting(row.state);
-  return resultRulesOf(row.settings as ProtocolSettings);
+  const rules = resultRulesOf(row.settings as ProtocolSettings);
+  if (rulesByStudy.size >= REMEMBERED_STUDIES) rulesByStudy.delete(rulesByStudy.keys().next().value!);
+  rulesByStudy.set(`${laboratoryId}:${studyId.toLowerCase()}`, rules);
+  return rules;
+}
+
+/**
+ * The rules collectingStudyRules last read for this study of this laboratory, without asking the database (and so
+ * without checking the state), or undefined when it has not read them.
+ *
+ * @example
+ * const rules = knownStudyRules(lab.id, studyId) ?? (await collectingStudyRules(lab.id, studyId));
+ */
+export function knownStudyRules(laboratoryId: string, studyId: string | undefined): ResultRules | undefined {
+  return isUuid(studyId) ? rulesByStudy.get(`${laboratoryId}:${studyId.toLowerCase()}`) : undefined;
 }

@@ -45,7 +45,8 @@ async function countFor(table: 'samples' | 'results' | 'import_logs' | 'attachme
 }
 
 beforeAll(async () => {
-  stack = await startThrowawayStack('faults', { env: { JOB_EXPIRE_SECONDS: String(JOB_EXPIRE_SECONDS) } });
+  // Two server processes: a fault must be handled the same when several share the work.
+  stack = await startThrowawayStack('faults', { env: { JOB_EXPIRE_SECONDS: String(JOB_EXPIRE_SECONDS), WEB_PROCESSES: '2' } });
   await stack.startServer();
   scientist = await signInAs('lab_scientist');
   technician = await signInAs('technician');

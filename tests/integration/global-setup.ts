@@ -1,17 +1,16 @@
 /**
  * The integration stack: a throwaway PostgreSQL cluster on a free port in .data/, migrated; the SMTP capture;
- * and the built server (`npx astro build` first; `npm test` does it) on a free port. The tests get the same
+ * and the built server (`npx astro build` first; `npm test` does it), two processes, on a free port. The tests get the same
  * environment variables the app reads, plus TEST_BASE_URL; everything is removed at the end.
  */
-import { spawn } from 'node:child_process';
 import { existsSync, mkdirSync, rmSync } from 'node:fs';
 import { createDatabase } from '../../src/db/client';
 import { applyMigrations } from '../../scripts/migrate';
 import { ensureCluster, removeCluster } from '../../scripts/postgres';
-import { DATA_DIR, ROOT, SERVER_ENTRY } from '../../scripts/local';
+import { DATA_DIR, SERVER_ENTRY } from '../../scripts/local';
 import { startSmtpFake } from '../../scripts/smtp-fake';
 import { waitForHealth } from '../../scripts/wait-for-health';
-import { freePort, removeAbandoned } from '../../scripts/stacks';
+import { freePort, removeAbandoned, spawnServer } from '../../scripts/stacks';
 
 export default async function setup() {
   mkdirSync(DATA_DIR, { recursive: true });
@@ -38,11 +37,9 @@ export default async function setup() {
     SIGN_IN_LIMIT_PER_MINUTE: '1000',
   };
   Object.assign(process.env, env, { TEST_BASE_URL: baseUrl });
-  const server = spawn(process.execPath, [entry], {
-    cwd: ROOT,
-    env: { ...process.env, ...env, HOST: '127.0.0.1', PORT: String(webPort) },
-    stdio: ['ignore', 'ignore', 'inherit'],
-  });
+  // Two server processes on the one port, as a deployment with several may run: every test also checks that
+  // nothing the app needs lives in one process only.
+  const server = spawnServer({ ...process.env, ...env, HOST: '127.0.0.1', PORT: String(webPort), WEB_PROCESSES: '2' }, ['ignore', 'ignore', 'inherit']);
   await waitForHealth(baseUrl, 60);
 
   return async () => {

@@ -25,7 +25,8 @@ export interface RobustNorm {
 // Each family is a class so that all its instances share one set of methods: IRLS loops call them
 // per sample, and shared methods keep those calls cheap (inlined) whatever the tuning constants.
 // Each class repeats the three array forms on purpose: a loop shared through a base class would see every
-// family at one call site, and V8 stops inlining such (megamorphic) calls.
+// family at one call site, and V8 stops inlining such (megamorphic) calls. The weights, IRLS's inner loop, are
+// written out with the constants on the scale of r; norms.test.ts checks them against weight(u) for every family.
 
 class LeastSquaresNorm implements RobustNorm {
   readonly name = 'leastSquares' as const;
@@ -75,11 +76,15 @@ class HuberNorm implements RobustNorm {
     return +(Math.abs(u) <= this.t);
   }
   weight(u: number): number {
-    return Math.min(1, this.t / Math.abs(u)); // t/0 = ∞ gives the limit 1 at u = 0
+    const a = Math.abs(u);
+    return a <= this.t ? 1 : this.t / a; // most residuals lie inside t: no division for them
   }
   weights(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+    const limit = this.t * scale; // |r| ≤ t·s ⇔ |u| ≤ t
+    for (let i = 0; i < residuals.length; i++) {
+      const a = Math.abs(residuals[i]);
+      out[i] = a <= limit ? 1 : limit / a;
+    }
   }
   psis(residuals: Float64Array, scale: number, out: Float64Array): void {
     const k = 1 / scale;
@@ -120,8 +125,12 @@ class TukeyBisquareNorm implements RobustNorm {
     return v * v;
   }
   weights(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+    const q = 1 / (this.c * scale); // u/c = r·q
+    for (let i = 0; i < residuals.length; i++) {
+      const z = residuals[i] * q;
+      const v = 1 - z * z;
+      out[i] = v > 0 ? v * v : 0;
+    }
   }
   psis(residuals: Float64Array, scale: number, out: Float64Array): void {
     const k = 1 / scale;
@@ -180,8 +189,15 @@ class HampelNorm implements RobustNorm {
     return 0;
   }
   weights(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+    // the breakpoints on the scale of r, so that each residual needs no division unless it is past a
+    const a = this.a * scale;
+    const b = this.b * scale;
+    const c = this.c * scale;
+    const { slope } = this;
+    for (let i = 0; i < residuals.length; i++) {
+      const z = Math.abs(residuals[i]);
+      out[i] = z <= a ? 1 : z <= b ? a / z : z <= c ? (slope * (c - z)) / z : 0;
+    }
   }
   psis(residuals: Float64Array, scale: number, out: Float64Array): void {
     const k = 1 / scale;

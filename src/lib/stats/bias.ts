@@ -416,27 +416,32 @@ function slopeBandStart(
 
   const xOrder = Int32Array.from(order);
   const tree = new Float64Array(ranks + 1);
-  return {
-    position,
-    weightBelow(counts) {
-      tree.fill(0);
-      let seen = 0;
-      let weight = 0;
-      for (let p = 0; p < n; p++) {
-        const point = xOrder[p];
-        const c = counts[point];
-        if (c === 0) continue;
-        // previous points with a larger key: all seen so far minus those with rank ≤ this rank
-        let atMost = 0;
-        for (let r = rank[point] + 1; r > 0; r -= r & -r) atMost += tree[r];
-        weight += c * (seen - atMost);
-        for (let r = rank[point] + 1; r <= ranks; r += r & -r) tree[r] += c;
-        seen += c;
-      }
-      for (let e = 0; e < minusOneBelow.length; e += 2) weight -= counts[minusOneBelow[e]] * counts[minusOneBelow[e + 1]];
-      return weight;
-    },
-  };
+  const dropped = Int32Array.from(minusOneBelow);
+  return { position, weightBelow: (counts) => weightedInversions(xOrder, rank, tree, dropped, counts) };
+}
+
+/**
+ * Σ c_i·c_j over the pairs whose keys are inverted in x order (a Fenwick tree over the key ranks, O(n log n)), minus
+ * the weights of the `dropped` pairs (flat list of index pairs). A function of its own, with the arrays as arguments.
+ */
+function weightedInversions(xOrder: Int32Array, rank: Int32Array, tree: Float64Array, dropped: Int32Array, counts: Int32Array): number {
+  const ranks = tree.length - 1;
+  tree.fill(0);
+  let seen = 0;
+  let weight = 0;
+  for (let p = 0; p < xOrder.length; p++) {
+    const point = xOrder[p];
+    const c = counts[point];
+    if (c === 0) continue;
+    // previous points with a larger key: all seen so far minus those with rank ≤ this rank
+    let atMost = 0;
+    for (let r = rank[point] + 1; r > 0; r -= r & -r) atMost += tree[r];
+    weight += c * (seen - atMost);
+    for (let r = rank[point] + 1; r <= ranks; r += r & -r) tree[r] += c;
+    seen += c;
+  }
+  for (let e = 0; e < dropped.length; e += 2) weight -= counts[dropped[e]] * counts[dropped[e + 1]];
+  return weight;
 }
 
 /** Median of `values`, reordering them (even length: mean of the two middle values). */

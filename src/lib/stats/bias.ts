@@ -273,6 +273,8 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
 
   const counts = new Int32Array(n);
   const offsets = new Float64Array(n);
+  const droppedFirst = Uint16Array.from(excludedFirst);
+  const droppedSecond = Uint16Array.from(excludedSecond);
   const band = slopeBandStart(x, y, sortedSlopes, sortedFirst, sortedSecond, belowMinusOneEnd, excludedFirst, excludedSecond);
   /**
    * Mean of the slopes at 1-based weighted ranks `low` ≤ `high`: scanning on from the band start when the weight
@@ -296,10 +298,8 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     for (let i = 0; i < size; i++) counts[indices[i]]++;
     let sumSquares = 0;
     for (let i = 0; i < n; i++) sumSquares += counts[i] * counts[i];
-    let total = (size * size - sumSquares) / 2;
-    for (let e = 0; e < excludedFirst.length; e++) total -= counts[excludedFirst[e]] * counts[excludedSecond[e]];
-    let shift = 0;
-    for (let k = 0; k < belowMinusOneEnd; k++) shift += counts[sortedFirst[k]] * counts[sortedSecond[k]];
+    const total = (size * size - sumSquares) / 2 - pairWeight(droppedFirst, droppedSecond, counts, droppedFirst.length);
+    const shift = pairWeight(sortedFirst, sortedSecond, counts, belowMinusOneEnd);
     const half = Math.floor(total / 2);
     if (total <= 0 || half + 1 + shift > total) {
       throw new StatsInputError('the resample has no usable shifted median slope (no slopes, or too many below −1)', { field: 'x' });
@@ -312,6 +312,13 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     for (let i = 0; i < size; i++) o[i] = y[indices[i]] - slope * x[indices[i]];
     return [medianInPlace(o), slope];
   };
+}
+
+/** Σ counts[first[k]]·counts[second[k]] over the first `end` pairs: the resample weight of those pairs. */
+function pairWeight(first: Uint16Array, second: Uint16Array, counts: Int32Array, end: number): number {
+  let weight = 0;
+  for (let k = 0; k < end; k++) weight += counts[first[k]] * counts[second[k]];
+  return weight;
 }
 
 /**

@@ -8,8 +8,6 @@
  */
 import { spawnSync } from 'node:child_process';
 import os from 'node:os';
-import v8 from 'node:v8';
-import vm from 'node:vm';
 import { fileURLToPath } from 'node:url';
 import {
   analyzeComparison,
@@ -67,29 +65,24 @@ function syntheticStudy(n: number, seed: number): { x: number[]; y: number[] } {
   return { x, y };
 }
 
-/** The garbage collector, exposed at run time: each row starts from a collected heap, not the last row's garbage. */
-v8.setFlagsFromString('--expose-gc');
-const collectGarbage = vm.runInNewContext('gc') as () => void;
-
 /** Warm-up runs go on until this much time has passed (and at least WARM_UP_RUNS), so that the JIT has settled. */
 const WARM_UP_MS = 200;
 const WARM_UP_RUNS = 5;
 
 /**
  * Median wall-clock and CPU time of `repeats` runs after a warm-up (WARM_UP_RUNS runs and WARM_UP_MS at least:
- * JIT compilation is not what is being measured) and a garbage collection; a first run slower than `slowMs` is
- * itself the figure (one run). CPU time is shown too because other work on the machine inflates wall-clock time.
+ * JIT compilation is not what is being measured); a first run slower than `slowMs` is itself the figure (one run).
+ * CPU time is shown too because other work on the machine inflates wall-clock time. (No forced garbage collection:
+ * it makes V8 shrink its heap and collect more often afterwards, which slowed the rows after it down severalfold.)
  */
 function medianTime(run: () => void, repeats: number, slowMs = 1000): { ms: number; cpuMs: number; runs: number } {
   const cpuOf = (usage: NodeJS.CpuUsage) => (usage.user + usage.system) / 1000;
-  collectGarbage();
   const warmStart = performance.now();
   const warmCpu = process.cpuUsage();
   run();
   const first = performance.now() - warmStart;
   if (first > slowMs) return { ms: first, cpuMs: cpuOf(process.cpuUsage(warmCpu)), runs: 1 };
   for (let runs = 1; runs < WARM_UP_RUNS || performance.now() - warmStart < WARM_UP_MS; runs++) run();
-  collectGarbage();
   const times: number[] = [];
   const cpuTimes: number[] = [];
   for (let r = 0; r < repeats; r++) {

@@ -16,6 +16,11 @@ export interface LinearDesign {
   solveExact(rows: readonly number[], y: Float64Array): Float64Array | null;
   /** Writes yᵢ − xᵢ'β into `out`. */
   residuals(y: Float64Array, beta: Float64Array, out: Float64Array): void;
+  /**
+   * Writes the residuals into `out` and returns their MAD scale, madScale(out, scratch, previousScale): for IRLS,
+   * which needs both at every step (the line does it in one pass over the data).
+   */
+  residualsAndMadScale(y: Float64Array, beta: Float64Array, out: Float64Array, scratch: Float64Array, previousScale: number): number;
   /** (X'WX)⁻¹ as a p × p array; `weights` null means all 1. */
   crossProductInverse(weights: Float64Array | null): number[][];
   /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. */
@@ -122,6 +127,32 @@ class LineDesign implements LinearDesign {
     const a = beta[0];
     const b = beta[1];
     for (let i = 0; i < n; i++) out[i] = y[i] - a - b * xs[i];
+  }
+
+  residualsAndMadScale(y: Float64Array, beta: Float64Array, out: Float64Array, scratch: Float64Array, previousScale: number): number {
+    const { xs, n } = this;
+    const a = beta[0];
+    const b = beta[1];
+    if (!(previousScale > 0)) {
+      for (let i = 0; i < n; i++) out[i] = y[i] - a - b * xs[i];
+      return madScale(out, scratch);
+    }
+    // the residuals and the band of |r| near the last median, in the same pass (see medianAbs)
+    const near = previousScale * MAD_CONSTANT;
+    const low = near * (1 - MEDIAN_BAND);
+    const high = near * (1 + MEDIAN_BAND);
+    let below = 0;
+    let m = 0;
+    for (let i = 0; i < n; i++) {
+      const r = y[i] - a - b * xs[i];
+      out[i] = r;
+      const size = Math.abs(r);
+      scratch[m] = size;
+      m += +(size >= low) & +(size <= high);
+      below += +(size < low);
+    }
+    const median = medianInBand(scratch, m, below, n);
+    return scaleFromMedian(Number.isNaN(median) ? medianAbs(out, scratch) : median);
   }
 
   crossProductInverse(weights: Float64Array | null): number[][] {
@@ -271,6 +302,10 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
         out[i] = y[i] - fitted;
       }
     },
+    residualsAndMadScale(y, beta, out, scratch, previousScale) {
+      this.residuals(y, beta, out);
+      return madScale(out, scratch, previousScale);
+    },
     crossProductInverse: (weights) => crossProductInverseMatrix(weights).to2DArray(),
     hatDiagonal(weights) {
       const inv = crossProductInverseMatrix(weights);
@@ -360,6 +395,19 @@ function middleOf(values: Float64Array, m: number, offset: number, n: number): n
   return (lower + upper) / 2;
 }
 
+/** Half-width of the band around a previous median that medianAbs selects in, relative to that median. */
+const MEDIAN_BAND = 0.1;
+
+/**
+ * The median of n values of which `below` lie under a band and the m in it are in band[0..m), or NaN when the
+ * median is not in the band (then a full selection is needed).
+ */
+function medianInBand(band: Float64Array, m: number, below: number, n: number): number {
+  const half = n >> 1;
+  const firstRank = n % 2 === 1 ? half : half - 1;
+  return firstRank >= below && half < below + m ? middleOf(band, m, below, n) : Number.NaN;
+}
+
 /**
  * Median of |values|, using `scratch` (same length) as work space so that hot loops allocate nothing.
  * Even n: mean of the two middle values, as R's median(). `near`, a previous median (as in IRLS, where it
@@ -371,10 +419,9 @@ function middleOf(values: Float64Array, m: number, offset: number, n: number): n
  */
 export function medianAbs(values: Float64Array, scratch: Float64Array, near = 0): number {
   const n = values.length;
-  const half = n >> 1;
   if (near > 0) {
-    const low = near * 0.9;
-    const high = near * 1.1;
+    const low = near * (1 - MEDIAN_BAND);
+    const high = near * (1 + MEDIAN_BAND);
     let below = 0;
     let m = 0;
     // branch-free counting (the comparisons are unpredictable, so branches would be slow)
@@ -384,8 +431,8 @@ export function medianAbs(values: Float64Array, scratch: Float64Array, near = 0)
       m += +(a >= low) & +(a <= high);
       below += +(a < low);
     }
-    const firstRank = n % 2 === 1 ? half : half - 1;
-    if (firstRank >= below && half < below + m) return middleOf(scratch, m, below, n);
+    const median = medianInBand(scratch, m, below, n);
+    if (!Number.isNaN(median)) return median;
   }
   for (let i = 0; i < n; i++) scratch[i] = Math.abs(values[i]);
   return middleOf(scratch, n, 0, n);
@@ -420,7 +467,12 @@ export const MAD_CONSTANT = 0.6745;
  * madScale(Float64Array.from([1, -2, 3]), new Float64Array(3)); // 2 / 0.6745
  */
 export function madScale(residuals: Float64Array, scratch: Float64Array, previous = 0): number {
-  const scale = medianAbs(residuals, scratch, previous * MAD_CONSTANT) / MAD_CONSTANT;
+  return scaleFromMedian(medianAbs(residuals, scratch, previous * MAD_CONSTANT));
+}
+
+/** median(|r|)/0.6745, refusing 0 (see madScale). */
+function scaleFromMedian(medianOfAbs: number): number {
+  const scale = medianOfAbs / MAD_CONSTANT;
   if (!(scale > 0)) {
     throw new StatsInputError(
       'the robust scale is 0: at least half of the samples lie exactly on the fitted line, so robust weights are undefined',

@@ -1,7 +1,7 @@
 import { iterateToFixedPoint } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, madScale, toArray, type LinearDesign } from './linear';
+import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
 import { sEstimateOnDesign, type SEstimate } from './sEstimator';
@@ -179,8 +179,8 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
   let first = adjustFirstStep !== undefined;
   /** One IRLS step from β: residuals, the MAD scale (unless fixed), weights, weighted least squares. */
   const irlsStep = (beta: Float64Array): Float64Array => {
-    design.residuals(y, beta, residuals);
-    if (fixedScale === undefined) scale = madScale(residuals, scratch, scale);
+    if (fixedScale === undefined) scale = design.residualsAndMadScale(y, beta, residuals, scratch, scale);
+    else design.residuals(y, beta, residuals);
     norm.weights(residuals, scale, weights);
     const next = design.solveWeighted(y, weights);
     if (!first) return next;

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
-import { createDesign, createLineDesign, lineDesignMatrix, medianAbs, selectKth } from '../../../../src/lib/stats/linear';
+import { createDesign, createLineDesign, lineDesignMatrix, madScale, medianAbs, selectKth } from '../../../../src/lib/stats/linear';
 import { seededRandom } from '../../../../src/lib/stats/random';
 import { datasets } from './robustFixtures';
 
@@ -69,4 +69,28 @@ describe('line design against the general QR design', () => {
     const design = createLineDesign([1, 1, 2, 3]);
     expect(() => design.solveWeighted(Float64Array.of(1, 2, 3, 4), Float64Array.of(1, 1, 0, 0))).toThrow(StatsInputError);
   });
+});
+
+describe('residualsAndMadScale', () => {
+  // built for this test: the one-pass form must agree with the two separate steps, whatever the hint
+  const x = Array.from({ length: 40 }, (_, i) => i + 1);
+  const y = Float64Array.from(x, (v) => 2 + 0.5 * v + Math.sin(3 * v));
+  const beta = Float64Array.of(1.8, 0.52);
+  for (const [name, design] of [
+    ['line', createLineDesign(x)],
+    ['general', createDesign(x.map((v) => [1, v, v * v]))],
+  ] as const) {
+    it(`${name} design: the residuals and the MAD scale as residuals() and madScale() give them, with any hint`, () => {
+      const coefficients = design.p === 2 ? beta : Float64Array.of(1.8, 0.52, 0);
+      const expected = new Float64Array(40);
+      design.residuals(y, coefficients, expected);
+      const scale = madScale(expected, new Float64Array(40));
+      // no hint, a close one, and one far off (the band misses the median and the full selection runs)
+      for (const hint of [0, scale * 1.02, scale * 5]) {
+        const out = new Float64Array(40);
+        expect(design.residualsAndMadScale(y, coefficients, out, new Float64Array(40), hint)).toBe(scale);
+        expect(Array.from(out)).toEqual(Array.from(expected));
+      }
+    });
+  }
 });

@@ -148,7 +148,7 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   }
   const n = x.length;
   const centre = x.reduce((sum, v) => sum + v, 0) / n;
-  const xs = new Float64Array(n);
+  const full = createLineDesign(x);
   const ys = new Float64Array(n);
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
@@ -170,13 +170,9 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   return (indices) => {
     const size = indices.length;
     const view = (buffer: Float64Array) => (size === n ? buffer : buffer.subarray(0, size));
-    const rx = view(xs);
     const ry = view(ys);
-    for (let i = 0; i < size; i++) {
-      rx[i] = x[indices[i]];
-      ry[i] = y[indices[i]];
-    }
-    const { beta } = irlsOnDesign(createLineDesign(rx), ry, norm, Float64Array.of(fit.intercept, fit.slope), {
+    for (let i = 0; i < size; i++) ry[i] = y[indices[i]];
+    const { beta } = irlsOnDesign(full.select(indices), ry, norm, Float64Array.of(fit.intercept, fit.slope), {
       fixedScale,
       scaleHint: fit.scale,
       tolerance: REFIT_TOLERANCE,

@@ -25,8 +25,8 @@ export interface LinearDesign {
   crossProductInverse(weights: Float64Array | null): number[][];
   /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. */
   hatDiagonal(weights: Float64Array | null): Float64Array;
-  /** The design made of the given rows only. */
-  select(rows: readonly number[]): LinearDesign;
+  /** The design made of the given rows only, in that order (repeats allowed, as in a bootstrap resample). */
+  select(rows: ArrayLike<number>): LinearDesign;
 }
 
 /**
@@ -175,8 +175,10 @@ class LineDesign implements LinearDesign {
     return hat;
   }
 
-  select(rows: readonly number[]): LinearDesign {
-    return new LineDesign(Float64Array.from(rows, (i) => this.xs[i]));
+  select(rows: ArrayLike<number>): LinearDesign {
+    const xs = new Float64Array(rows.length);
+    for (let k = 0; k < rows.length; k++) xs[k] = this.xs[rows[k]];
+    return new LineDesign(xs);
   }
 
   private moments(weights: Float64Array | null): LineMoments {
@@ -318,7 +320,7 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
       }
       return hat;
     },
-    select: (subset) => createDesign(subset.map((i) => rows[i])),
+    select: (subset) => createDesign(Array.from(subset, (i) => rows[i])),
   };
 }
 

@@ -295,11 +295,11 @@ export const samples = pgTable(
     version: version(),
   },
   (t) => [
-    uniqueIndex('samples_study_code_uq').on(t.studyId, t.code),
     index('samples_lab_study_idx').on(t.laboratoryId, t.studyId),
-    // A row save looks up its code case-blind and takes the next position: without these, both read every sample
-    // of the study, and a save gets slower with each sample.
-    index('samples_study_code_lower_idx').on(t.studyId, sql`lower(${t.code})`),
+    // A specimen code names one sample of a study whatever its capitals: the services compare codes case-blind,
+    // and this index makes two saves racing with "em-0001" and "EM-0001" keep one (the other gets 409). It also
+    // serves the code lookup of a row save, as the position index serves its next position.
+    uniqueIndex('samples_study_code_lower_uq').on(t.studyId, sql`lower(${t.code})`),
     index('samples_study_position_idx').on(t.studyId, t.position),
     check('samples_code_ck', sql`length(trim(${t.code})) between 1 and 64`),
     check(

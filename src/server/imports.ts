@@ -11,7 +11,7 @@ import Papa from 'papaparse';
 import { getDb } from './db';
 import { attachments, importLogs, user } from '../db/schema';
 import { notFound, Problem } from './problem';
-import { isUuid, lockCollectingStudy } from './studies';
+import { isUuid, lockCollectingStudy, refuseUnlessAssigned } from './studies';
 import { logImport, refusal, storeRows, type Writer } from './results';
 import { checkRows, CSV_DELIMITERS, decodeCsvBytes, detectDecimalComma, missingColumns, tableToRows, type ColumnMapping, type RowMessage } from '../lib/resultParsing';
 import { IMPORT_LIMITS, type ImportSettings } from '../lib/resultSchemas';
@@ -82,6 +82,7 @@ export async function importCsv(writer: Writer & { userId: string }, laboratoryI
 
   return getDb().transaction(async (tx) => {
     const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId);
+    await refuseUnlessAssigned(laboratoryId, study.id, writer.userId);
     const mappingProblems = checkMapping(headers, settings.mapping, rules.replicates);
     if (mappingProblems.length > 0) throw refusal(WHAT, mappingProblems);
     const checked = checkRows(tableToRows(headers, data, settings.mapping), rules);

@@ -9,7 +9,7 @@ import { getDb } from './db';
 import { apiTokens, importLogs, results, samples, type ImportSource } from '../db/schema';
 import { auditArguments, recordAudit } from './audit';
 import { conflict, invalid, notFound, Problem, type FieldError } from './problem';
-import { collectingStudyRules, isUuid, knownStudyRules, lockCollectingStudy } from './studies';
+import { collectingStudyRules, isUuid, knownStudyRules, lockCollectingStudy, refuseUnlessAssigned } from './studies';
 import { sha256 } from './laboratories';
 import {
   checkSampleRow,
@@ -206,6 +206,7 @@ export async function saveRow(writer: Writer, laboratoryId: string, studyId: str
   if (!isUuid(sampleId)) throw notFound('sample');
   return getDb().transaction(async (tx) => {
     const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId, 'share');
+    await refuseUnlessAssigned(laboratoryId, study.id, writer.userId);
     const checked = checkSampleRow(rowText(body), rules);
     if (!checked.row) throw invalidRow(checked.errors);
     const row = checked.row;
@@ -306,6 +307,7 @@ async function createRow(writer: Writer, laboratoryId: string, studyIdInPath: st
   const rules = known ?? (await collectingStudyRules(laboratoryId, studyIdInPath));
   // The id as the database writes it (the path may spell it in capitals): it goes into the audit event.
   const studyId = studyIdInPath!.toLowerCase();
+  await refuseUnlessAssigned(laboratoryId, studyId, writer.userId);
   const checked = checkSampleRow(rowText(body), rules);
   if (!checked.row) {
     if (known) await collectingStudyRules(laboratoryId, studyId);
@@ -543,6 +545,7 @@ export async function tokenNameOf(request: Request, laboratoryId: string): Promi
 export async function uploadResults(writer: Writer, laboratoryId: string, studyId: string | undefined, upload: ApiUpload) {
   return getDb().transaction(async (tx) => {
     const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId);
+    await refuseUnlessAssigned(laboratoryId, study.id, writer.userId);
     const problems: RowMessage[] = [];
     const grouped = new Map<string, { text: SampleRowText; seen: Set<string> }>();
     upload.results.forEach((entry, index) => {

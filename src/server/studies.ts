@@ -253,6 +253,34 @@ export async function lockCollectingStudy(tx: Tx & Executor, laboratoryId: strin
   return { study: row.study, rules: resultRulesOf(row.settings as ProtocolSettings) };
 }
 
+/**
+ * Refuses a person's results write to a study that names its technicians when that person is not one of them (403);
+ * a study opened without any is open to every technician of the laboratory, and API tokens (no person) are not
+ * asked. The names are read once per study and remembered: they are set when the study opens and never change.
+ *
+ * @example
+ * await refuseUnlessAssigned(lab.id, study.id, writer.userId);
+ */
+export async function refuseUnlessAssigned(laboratoryId: string, studyId: string, userId: string | null): Promise<void> {
+  if (userId === null) return;
+  const key = `${laboratoryId}:${studyId.toLowerCase()}`;
+  let assigned = assignedByStudy.get(key);
+  if (!assigned) {
+    const rows = await getDb()
+      .select({ userId: studyAssignments.userId })
+      .from(studyAssignments)
+      .innerJoin(studies, eq(studies.id, studyAssignments.studyId))
+      .where(and(eq(studyAssignments.studyId, studyId), eq(studies.laboratoryId, laboratoryId)));
+    assigned = new Set(rows.map((r) => r.userId));
+    if (assignedByStudy.size >= REMEMBERED_STUDIES) assignedByStudy.delete(assignedByStudy.keys().next().value!);
+    assignedByStudy.set(key, assigned);
+  }
+  if (assigned.size > 0 && !assigned.has(userId)) {
+    throw new Problem(403, 'Not assigned', 'Only the technicians named when this study was opened enter its results.');
+  }
+}
+const assignedByStudy = new Map<string, Set<string>>();
+
 function refuseUnlessCollecting(state: StudyState) {
   if (state !== 'collecting') {
     throw new Problem(409, 'Study not collecting results', `Results can be entered only while the study is collecting results; this study is ${state.replace('_', ' ')}.`);

@@ -26,22 +26,24 @@ export interface TestLab {
 
 /** A laboratory with one verified member per role, all with TEST_PASSWORD. */
 export async function createLabWithMembers(label = 'lab'): Promise<TestLab> {
-  passwordHash ??= hashPassword(TEST_PASSWORD);
-  const hash = await passwordHash;
   const suffix = crypto.randomUUID().slice(0, 8);
   const db = getDb();
   const [lab] = await db.insert(laboratories).values({ name: `Test ${label} ${suffix}`, slug: `${label}-${suffix}` }).returning();
   const people = {} as TestLab['people'];
-  for (const role of ROLES) {
-    const id = crypto.randomUUID();
-    const email = `${role}-${suffix}@${label}.test`;
-    const name = `${role} ${suffix}`;
-    await db.insert(user).values({ id, name, email, emailVerified: true });
-    await db.insert(account).values({ id: crypto.randomUUID(), accountId: id, providerId: 'credential', userId: id, password: hash });
-    await db.insert(memberships).values({ laboratoryId: lab.id, userId: id, role });
-    people[role] = { id, email, name };
-  }
+  for (const role of ROLES) people[role] = await addMember(lab.id, role, `${role}-${suffix}@${label}.test`);
   return { id: lab.id, slug: lab.slug, name: lab.name, people };
+}
+
+/** One more person with the test password, a member of the laboratory in `role`. */
+export async function addMember(laboratoryId: string, role: (typeof ROLES)[number], email: string) {
+  passwordHash ??= hashPassword(TEST_PASSWORD);
+  const db = getDb();
+  const id = crypto.randomUUID();
+  const name = email.split('@')[0].replace('-', ' ');
+  await db.insert(user).values({ id, name, email, emailVerified: true });
+  await db.insert(account).values({ id: crypto.randomUUID(), accountId: id, providerId: 'credential', userId: id, password: await passwordHash });
+  await db.insert(memberships).values({ laboratoryId, userId: id, role });
+  return { id, email, name };
 }
 
 export type HttpClient = HttpSession;

@@ -3,7 +3,7 @@ import { getDb } from '../../src/server/db';
 import { auditTrail } from '../../src/server/audit';
 import { signIn } from './helpers';
 import { approvedGlucoseVersion, collectingStudy, problemOf, PROCEDURES, rowCounts } from './studySetup';
-import { createLabWithMembers } from './helpers';
+import { addMember, createLabWithMembers } from './helpers';
 
 afterAll(() => getDb().$client.end());
 
@@ -176,5 +176,39 @@ describe('entry grid rows', () => {
     const grid = (await (await technician.get(`${base}/samples`)).json()).rows;
     expect(grid).toEqual([winner]);
     expect((await rowCounts()).audit_events).toBe(before.audit_events + 1);
+  });
+});
+
+describe('who enters results', () => {
+  it('only the technicians a study names enter its results (grid, import, API); a study naming none takes any technician', async () => {
+    const setup = await collectingStudy('assigned');
+    const { lab, base, technician } = setup;
+    const stranger = await addMember(lab.id, 'technician', `other-technician@${lab.slug}.test`);
+    const other = await signIn(stranger.email);
+    const before = await rowCounts();
+
+    const grid = await other.post(`${base}/samples`, row('S-1', ['10', '10'], ['11', '11']));
+    expect(grid.status).toBe(403);
+    expect((await problemOf(grid)).detail).toMatch(/Only the technicians named when this study was opened/);
+    const form = new FormData();
+    form.set('file', new Blob(['Sample,Comparative 1,Comparative 2,Candidate 1,Candidate 2\nS-2,10,10,11,11\n'], { type: 'text/csv' }), 'two.csv');
+    form.set('settings', JSON.stringify({ mapping: { sampleCode: 'Sample', comparative: ['Comparative 1', 'Comparative 2'], candidate: ['Candidate 1', 'Candidate 2'] } }));
+    expect((await other.request('POST', `${base}/imports`, form)).status).toBe(403);
+    const upload = { results: [{ sampleCode: 'S-3', procedure: 'comparative', replicate: 1, value: 10, unit: 'mg/dL', runDate: '2026-11-21' }] };
+    expect((await other.post(`${base}/results`, upload)).status).toBe(403);
+    expect(await rowCounts()).toEqual(before);
+
+    // the technician the study names saves, and the other cannot change that row either
+    const saved = await technician.post(`${base}/samples`, row('S-1', ['10', '10'], ['11', '11']));
+    expect(saved.status).toBe(201);
+    const { row: stored } = await saved.json();
+    const edit = await other.put(`${base}/samples/${stored.id}`, { ...row('S-1', ['10', '10'], ['12', '11']), version: stored.version, reason: 'typo' });
+    expect(edit.status).toBe(403);
+
+    // a study opened without naming anyone is open to every technician of the laboratory
+    const { version } = await approvedGlucoseVersion(lab);
+    const opened = await (await setup.scientist.post(`/api/labs/${lab.slug}/studies`, { title: 'Open to all', protocolVersionId: version.id, ...PROCEDURES, technicianIds: [] })).json();
+    await setup.scientist.post(`/api/labs/${lab.slug}/studies/${opened.study.id}/transitions`, { transition: 'start_collecting', version: opened.study.version });
+    expect((await other.post(`/api/labs/${lab.slug}/studies/${opened.study.id}/samples`, row('T-1', ['10', '10'], ['11', '11']))).status).toBe(201);
   });
 });

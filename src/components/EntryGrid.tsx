@@ -57,6 +57,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
   const focusedKey = useRef<string | null>(null);
   const tabAnchor = useRef<number | null>(null);
   const [reasonFor, setReasonFor] = useState<{ key: string; fields: string[] } | null>(null);
+  const [removing, setRemoving] = useState<{ key: string; code: string } | null>(null);
   const [warningsByRow, setWarningsByRow] = useState<Record<string, Record<string, string>>>({});
   // Cells take typing only once the island runs; keys pressed into the server-rendered page would be lost.
   const [hydrated, setHydrated] = useState(false);
@@ -165,8 +166,28 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
     focusedKey.current = key;
   }
 
+  /** Asks for the reason to remove a saved row (its unsaved edits go with it). */
+  function askToRemove(key: string) {
+    const row = rowsRef.current.find((r) => r.key === key);
+    if (row?.saved) setRemoving({ key, code: row.saved.code });
+  }
+
+  async function remove(key: string, reason: string) {
+    const row = rowsRef.current.find((r) => r.key === key);
+    if (!row?.saved) return;
+    try {
+      await api('DELETE', `${base}/samples/${row.saved.id}`, { version: row.saved.version, reason });
+      if (focusedKey.current === key) focusedKey.current = null;
+      apply((current) => current.filter((r) => r.key !== key));
+      window.dispatchEvent(new CustomEvent(RESULTS_CHANGED, { detail: { source: 'grid' } }));
+    } catch (error) {
+      const message = error instanceof ApiError ? `Not removed: ${error.problem.detail}` : 'Not removed: the server could not be reached.';
+      updateRow(key, (r) => ({ ...r, message }));
+    }
+  }
+
   function onGridBlur(event: React.FocusEvent) {
-    if (container.current?.contains(event.relatedTarget as Node | null) || reasonFor) return;
+    if (container.current?.contains(event.relatedTarget as Node | null) || reasonFor || removing) return;
     if (focusedKey.current) void enqueueSave(focusedKey.current);
     focusedKey.current = null;
   }
@@ -181,7 +202,10 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
       if (container.current?.querySelector(`[data-cell="${target}:${c}"]`)) focusCell(target, c);
       else requestAnimationFrame(() => focusCell(target, c));
     };
-    if (event.key === 'Tab') {
+    if (event.key === 'Delete' && (event.ctrlKey || event.metaKey) && canEdit) {
+      event.preventDefault();
+      askToRemove(rowsRef.current[rowIndex].key);
+    } else if (event.key === 'Tab') {
       tabAnchor.current ??= colIndex;
       if (event.shiftKey) move(colIndex === 0 ? rowIndex - 1 : rowIndex, colIndex === 0 ? last : colIndex - 1);
       else move(colIndex === last ? rowIndex + 1 : rowIndex, colIndex === last ? 0 : colIndex + 1);
@@ -258,7 +282,7 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
     <div ref={container} onBlur={onGridBlur} className="overflow-x-auto" data-testid="entry-grid">
       <p id="grid-help" className="mb-2 text-xs text-neutral-600">
         {canEdit
-          ? `Type results in ${rules.units}; "<5" or ">600" for results reported beyond a limit. Tab and Enter move on, arrow keys navigate, Escape undoes a cell; paste a block copied from a spreadsheet. Flags: H haemolysed, I icteric, L lipaemic, C clotted, O other (say what in the note). Rows save when you leave them.`
+          ? `Type results in ${rules.units}; "<5" or ">600" for results reported beyond a limit. Tab and Enter move on, arrow keys navigate, Escape undoes a cell; paste a block copied from a spreadsheet. Flags: H haemolysed, I icteric, L lipaemic, C clotted, O other (say what in the note). Rows save when you leave them; Ctrl+Delete removes a saved row (with a reason).`
           : 'Read-only: only technicians enter results, while the study is collecting results.'}
       </p>
       <table className="w-full border-collapse bg-white text-sm">
@@ -302,6 +326,12 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
                         {firstProblem && <div className="text-attention-800">{FIELD_WORDS(firstProblem[0])}: {firstProblem[1]}</div>}
                         {!firstProblem && row.message && row.status !== 'conflict' && <div className="text-attention-800">{row.message}</div>}
                         {!firstProblem && Object.entries(warnings).map(([f, m]) => <div key={f} className="text-attention-800">⚠ {m}</div>)}
+                        {canEdit && row.saved && row.status === 'saved' && (
+                          // out of the Tab order, which moves between cells; Ctrl+Delete in the row does the same
+                          <button type="button" tabIndex={-1} onClick={() => askToRemove(row.key)} className="mt-0.5 text-neutral-600 underline hover:text-attention-800" aria-label={`Remove sample ${row.saved.code}`}>
+                            Remove
+                          </button>
+                        )}
                       </td>
                     );
                   }
@@ -392,7 +422,9 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
       {reasonFor && (
         <ReasonDialog
           title="Why do saved results change?"
-          fields={reasonFor.fields}
+          explanation={`Saved values change (${reasonFor.fields.join(', ')}). The audit trail keeps the old and new values with your reason.`}
+          label="Reason for the change"
+          submitLabel="Save the change"
           onSave={(reason) => {
             const key = reasonFor.key;
             setReasonFor(null);
@@ -402,6 +434,20 @@ function Grid({ slug, studyId, rules, canEdit }: Props) {
             updateRow(reasonFor.key, (r) => ({ ...r, message: 'Not saved: a change to saved values needs a reason.' }));
             setReasonFor(null);
           }}
+        />
+      )}
+      {removing && (
+        <ReasonDialog
+          title={`Remove sample ${removing.code}?`}
+          explanation="The sample and its results leave the study; the audit trail keeps them with your reason."
+          label="Reason for removing it"
+          submitLabel="Remove the row"
+          onSave={(reason) => {
+            const { key } = removing;
+            setRemoving(null);
+            void remove(key, reason);
+          }}
+          onCancel={() => setRemoving(null)}
         />
       )}
     </div>

@@ -73,6 +73,19 @@ export const rowSaveSchema = z.object({
   reason: reasonSchema,
 });
 /**
+ * Removing a row of the entry grid: the row's version when it was read, and why (the audit trail keeps the row).
+ *
+ * @example
+ * rowRemoveSchema.parse({ version: 3, reason: 'Entered under the wrong study' });
+ */
+export const rowRemoveSchema = z.object({
+  version: z.int('The version is a whole number.').min(1),
+  reason: z.string().trim().min(1, 'Say why the row is removed.').max(500, 'Keep the reason under 500 characters.'),
+});
+/** A parsed row removal. */
+export type RowRemove = z.output<typeof rowRemoveSchema>;
+
+/**
  * A parsed row save.
  *
  * @example

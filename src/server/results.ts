@@ -20,7 +20,7 @@ import {
   type RowMessage,
   type SampleRowText,
 } from '../lib/resultParsing';
-import type { ApiUpload, RowSave } from '../lib/resultSchemas';
+import type { ApiUpload, RowSave, RowRemove } from '../lib/resultSchemas';
 import type { Database } from '../db/client';
 
 type Tx = Parameters<Parameters<Database['transaction']>[0]>[0];
@@ -298,6 +298,39 @@ interface NewRowOutcome {
   same_code_id: string | null;
   position: number | null;
   version: number | null;
+}
+
+/**
+ * Removes one grid row, a sample with its results, from a study that is collecting: only at the version the person
+ * read (else 409 with the saved row), with a reason; the audit event keeps the code and every value, so the row
+ * can be told apart in the trail. A signed study's data cannot be removed (its database triggers refuse it too).
+ *
+ * @example
+ * await removeRow({ userId: user.id, tokenName: null }, lab.id, studyId, sampleId, { version: 2, reason: 'Wrong study' });
+ */
+export async function removeRow(writer: Writer, laboratoryId: string, studyId: string | undefined, sampleId: string, body: RowRemove) {
+  if (!isUuid(sampleId)) throw notFound('sample');
+  return getDb().transaction(async (tx) => {
+    const { study, rules } = await lockCollectingStudy(tx, laboratoryId, studyId, 'share');
+    await refuseUnlessAssigned(laboratoryId, study.id, writer.userId);
+    const [sample] = await tx.select().from(samples).where(and(eq(samples.id, sampleId), eq(samples.studyId, study.id), eq(samples.laboratoryId, laboratoryId))).for('update');
+    if (!sample) throw notFound('sample');
+    const [before] = await loadRows(tx, study.id, rules.replicates, [sample.id]);
+    if (body.version !== sample.version) {
+      throw conflict(`Sample ${sample.code} was saved by someone else since you read it; look at the saved values before removing it.`, { current: before });
+    }
+    // results and any exclusion go with the sample (ON DELETE CASCADE)
+    await tx.delete(samples).where(eq(samples.id, sample.id));
+    await recordAudit(tx, {
+      laboratoryId,
+      actorUserId: writer.userId,
+      action: 'sample.removed',
+      entityType: 'sample',
+      entityId: sample.id,
+      data: { studyId: study.id, code: sample.code, reason: body.reason, removed: { comparative: before.comparative, candidate: before.candidate, runDate: before.runDate, flags: before.flags } },
+    });
+    return { removed: sample.id };
+  });
 }
 
 /** saveRow for a new sample (see NEW_ROW_STATEMENT). */

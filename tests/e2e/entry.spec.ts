@@ -105,6 +105,17 @@ test('a technician types, pastes, fixes and imports paired results', async ({ br
   await expect(page.getByLabel('E2E-CSV-2: comparative replicate 1')).toHaveValue('245.1');
   await expect(page.getByTestId('coverage-samples')).toContainText('18');
 
+  // A row entered by mistake is removed by keyboard (Ctrl+Delete in the row), with a reason; coverage follows.
+  await page.getByLabel('E2E-CSV-3: sample code').focus();
+  await page.keyboard.press('Control+Delete');
+  const removal = page.getByRole('dialog');
+  await expect(removal).toContainText('Remove sample E2E-CSV-3?');
+  await page.keyboard.type('Specimen belongs to another study');
+  await page.keyboard.press('Enter');
+  await expect(page.getByLabel('E2E-CSV-3: sample code')).toHaveCount(0);
+  await expect(rows.filter({ has: page.getByText('✔ Saved') })).toHaveCount(17);
+  await expect(page.getByTestId('coverage-samples')).toContainText('17');
+
   // The study page with its grid, coverage and import has no serious accessibility violations (axe-core, WCAG 2.1 AA).
   const axe = await new AxeBuilder({ page }).withTags(['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa']).analyze();
   expect(axe.violations.filter((v) => v.impact === 'serious' || v.impact === 'critical').map((v) => `${v.id}: ${v.nodes.map((n) => n.target.join(' ')).slice(0, 3).join(', ')}`)).toEqual([]);

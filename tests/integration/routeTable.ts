@@ -304,6 +304,21 @@ export const ROUTES: RouteEntry[] = [
     input: { valid: () => ({ ...row, version: 99 }), fields: rowFields },
   },
   {
+    route: '/api/labs/[slug]/studies/[id]/samples/[sampleId]',
+    method: 'DELETE',
+    access: lab('results.enter'),
+    params: (o) => ({ slug: o.lab.slug, id: o.studyId, sampleId: o.sampleId }),
+    body: 'json',
+    // From a stale version: refused with 409, so the sample stays for the other requests.
+    input: {
+      valid: () => ({ version: 99, reason: 'Entered under the wrong study' }),
+      fields: [
+        { path: 'version', kind: 'int', required: true },
+        { path: 'reason', kind: 'string', required: true },
+      ],
+    },
+  },
+  {
     route: '/api/labs/[slug]/studies/[id]/samples/[sampleId]/exclusion',
     method: 'POST',
     access: lab('sample.exclude'),

@@ -212,3 +212,29 @@ describe('who enters results', () => {
     expect((await other.post(`/api/labs/${lab.slug}/studies/${opened.study.id}/samples`, row('T-1', ['10', '10'], ['11', '11']))).status).toBe(201);
   });
 });
+
+describe('removing a row', () => {
+  it('removes a sample with its results at the version read, with a reason, audited with every value; stale or reasonless removals are refused', async () => {
+    const { lab, base, technician, scientist, studyId } = await collectingStudy('remove');
+    const saved = await (await technician.post(`${base}/samples`, row('WRONG-1', ['10', '10.2'], ['11', '']))).json();
+    const kept = await (await technician.post(`${base}/samples`, row('KEPT-1', ['20', '20'], ['21', '21']))).json();
+    const sampleUrl = `${base}/samples/${saved.row.id}`;
+
+    expect((await scientist.delete(sampleUrl, { version: saved.row.version, reason: 'x' })).status).toBe(403); // role
+    const reasonless = await technician.delete(sampleUrl, { version: saved.row.version, reason: ' ' });
+    expect(reasonless.status).toBe(422);
+    expect((await problemOf(reasonless)).errors?.[0].field).toBe('reason');
+    const stale = await technician.delete(sampleUrl, { version: saved.row.version + 1, reason: 'Wrong study' });
+    expect(stale.status).toBe(409);
+    expect(((await stale.json()) as { current: { code: string } }).current.code).toBe('WRONG-1');
+
+    const removed = await technician.delete(sampleUrl, { version: saved.row.version, reason: 'Entered under the wrong study' });
+    expect(removed.status).toBe(200);
+    const grid = (await (await technician.get(`${base}/samples`)).json()) as { rows: { code: string }[] };
+    expect(grid.rows.map((r) => r.code)).toEqual(['KEPT-1']);
+    const [event] = (await auditTrail(getDb(), lab.id, { entityId: saved.row.id })).filter((e) => e.action === 'sample.removed');
+    expect(event.data).toMatchObject({ studyId, code: 'WRONG-1', reason: 'Entered under the wrong study', removed: { comparative: [{ value: 10 }, { value: 10.2 }] } });
+    expect((await technician.delete(sampleUrl, { version: saved.row.version, reason: 'again' })).status).toBe(404);
+    expect(kept.row.code).toBe('KEPT-1');
+  });
+});

@@ -1,7 +1,17 @@
 import { useEffect, useRef, useState, type FormEvent } from 'react';
 
-/** Asks why saved values change (the audit trail keeps the reason with old and new values). */
-export function ReasonDialog({ title, fields, onSave, onCancel }: { title: string; fields: string[]; onSave: (reason: string) => void; onCancel: () => void }) {
+interface Props {
+  title: string;
+  /** What happens and that the audit trail keeps it. */
+  explanation: string;
+  label: string;
+  submitLabel: string;
+  onSave: (reason: string) => void;
+  onCancel: () => void;
+}
+
+/** Asks why saved results change or go (the audit trail keeps the reason with the values). */
+export function ReasonDialog({ title, explanation, label, submitLabel, onSave, onCancel }: Props) {
   const [reason, setReason] = useState('');
   const input = useRef<HTMLInputElement>(null);
   useEffect(() => input.current?.focus(), []);
@@ -15,16 +25,16 @@ export function ReasonDialog({ title, fields, onSave, onCancel }: { title: strin
         <h2 id="reason-title" className="font-semibold">
           {title}
         </h2>
-        <p className="text-sm text-neutral-700">Saved values change ({fields.join(', ')}). The audit trail keeps the old and new values with your reason.</p>
+        <p className="text-sm text-neutral-700">{explanation}</p>
         <div className="flex flex-col gap-1">
           <label htmlFor="change-reason" className="text-sm font-medium">
-            Reason for the change
+            {label}
           </label>
           <input id="change-reason" ref={input} value={reason} onChange={(e) => setReason(e.currentTarget.value)} className="rounded border border-neutral-300 px-2 py-1.5" />
         </div>
         <div className="flex gap-3">
           <button type="submit" disabled={!reason.trim()} className="rounded bg-brand-700 px-4 py-1.5 font-medium text-white disabled:opacity-60">
-            Save the change
+            {submitLabel}
           </button>
           <button type="button" onClick={onCancel} className="rounded border border-neutral-300 px-4 py-1.5">
             Keep editing

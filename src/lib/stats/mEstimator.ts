@@ -67,17 +67,17 @@ export function sandwichCovariance(
   norm: RobustNorm,
 ): number[][] {
   const { n, p } = design;
-  const psi = new Float64Array(n);
-  const deriv = new Float64Array(n);
-  norm.psis(residuals, scale, psi);
-  norm.psiDerivs(residuals, scale, deriv);
   let sumPsi2 = 0;
   let sumDeriv = 0;
   let sumDeriv2 = 0;
+  const inverseScale = 1 / scale;
   for (let i = 0; i < n; i++) {
-    sumPsi2 += psi[i] * psi[i];
-    sumDeriv += deriv[i];
-    sumDeriv2 += deriv[i] * deriv[i];
+    const u = residuals[i] * inverseScale;
+    const psi = norm.psi(u);
+    const deriv = norm.psiDeriv(u);
+    sumPsi2 += psi * psi;
+    sumDeriv += deriv;
+    sumDeriv2 += deriv * deriv;
   }
   const meanDeriv = sumDeriv / n;
   if (!(meanDeriv > 0)) {

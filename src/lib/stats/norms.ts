@@ -14,19 +14,15 @@ export interface RobustNorm {
   psi(u: number): number;
   psiDeriv(u: number): number;
   weight(u: number): number;
-  /** w(rᵢ/s) for every residual, into `out` (the array forms let IRLS loops call one family's code only). */
+  /** w(rᵢ/s) for every residual, into `out`: IRLS's inner loop, so that it runs one family's code only. */
   weights(residuals: Float64Array, scale: number, out: Float64Array): void;
-  /** ψ(rᵢ/s) for every residual, into `out`. */
-  psis(residuals: Float64Array, scale: number, out: Float64Array): void;
-  /** ψ′(rᵢ/s) for every residual, into `out`. */
-  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void;
 }
 
 // Each family is a class so that all its instances share one set of methods: IRLS loops call them
 // per sample, and shared methods keep those calls cheap (inlined) whatever the tuning constants.
-// Each class repeats the three array forms on purpose: a loop shared through a base class would see every
-// family at one call site, and V8 stops inlining such (megamorphic) calls. The weights, IRLS's inner loop, are
-// written out with the constants on the scale of r; norms.test.ts checks them against weight(u) for every family.
+// Each class has its own weights loop on purpose: a loop shared through a base class would see every family at one
+// call site, and V8 stops inlining such (megamorphic) calls. They are written out with the constants on the scale of
+// r; norms.test.ts checks them against weight(u) for every family.
 
 class LeastSquaresNorm implements RobustNorm {
   readonly name = 'leastSquares' as const;
@@ -47,14 +43,6 @@ class LeastSquaresNorm implements RobustNorm {
   weights(residuals: Float64Array, scale: number, out: Float64Array): void {
     const k = 1 / scale;
     for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
-  }
-  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
-  }
-  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -85,14 +73,6 @@ class HuberNorm implements RobustNorm {
       const a = Math.abs(residuals[i]);
       out[i] = a <= limit ? 1 : limit / a;
     }
-  }
-  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
-  }
-  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -131,14 +111,6 @@ class TukeyBisquareNorm implements RobustNorm {
       const v = 1 - z * z;
       out[i] = v > 0 ? v * v : 0;
     }
-  }
-  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
-  }
-  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 
@@ -198,14 +170,6 @@ class HampelNorm implements RobustNorm {
       const z = Math.abs(residuals[i]);
       out[i] = z <= a ? 1 : z <= b ? a / z : z <= c ? (slope * (c - z)) / z : 0;
     }
-  }
-  psis(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psi(residuals[i] * k);
-  }
-  psiDerivs(residuals: Float64Array, scale: number, out: Float64Array): void {
-    const k = 1 / scale;
-    for (let i = 0; i < residuals.length; i++) out[i] = this.psiDeriv(residuals[i] * k);
   }
 }
 

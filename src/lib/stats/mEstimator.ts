@@ -4,7 +4,7 @@ import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
-import { sEstimateOnDesign, type SEstimate } from './sEstimator';
+import { checkedSEstimate, sEstimateOnDesign, type SEstimate } from './sEstimator';
 import type { LineFit, StartKind } from './types';
 import { validateConfidence, validatePairs, validatePositive } from './validate';
 
@@ -126,10 +126,7 @@ function startingPoint(
   }
   if (choice === 'ols') return { beta: design.solveWeighted(y, null), kind: 'ols' };
   if (choice === 's-estimate') {
-    if (sEstimate && sEstimate.coefficients.length !== design.p) {
-      throw new StatsInputError(`the S-estimate given has ${sEstimate.coefficients.length} coefficients, expected ${design.p}`, { field: 'sEstimate' });
-    }
-    const coefficients = (sEstimate ?? sEstimateOnDesign(design, y, { seed })).coefficients;
+    const coefficients = (checkedSEstimate(sEstimate, design.p) ?? sEstimateOnDesign(design, y, { seed })).coefficients;
     return { beta: new Float64Array(coefficients), kind: 's-estimate' };
   }
   throw new StatsInputError(`start must be 'ols', 's-estimate' or an array of coefficients (got ${String(choice)})`, {

@@ -1,9 +1,8 @@
-import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, type LinearDesign } from './linear';
 import { lineFitFromMEstimate, mEstimateOnDesign, type MEstimate } from './mEstimator';
 import { tukeyBisquareNorm } from './norms';
 import { validateResponse } from './ols';
-import { sEstimateOnDesign, type SEstimate, type SEstimatorOptions } from './sEstimator';
+import { checkedSEstimate, sEstimateOnDesign, type SEstimate, type SEstimatorOptions } from './sEstimator';
 import type { LineFit } from './types';
 import { validatePairs } from './validate';
 
@@ -29,10 +28,7 @@ export interface MMEstimate extends MEstimate {
 function mmOnDesign(design: LinearDesign, y: Float64Array, opts: MMOptions): MMEstimate {
   const { seed = 1, c = 4.685, confidence = 0.95, maxIterations, tolerance } = opts;
   const norm = tukeyBisquareNorm(c);
-  if (opts.sEstimate && opts.sEstimate.coefficients.length !== design.p) {
-    throw new StatsInputError(`the S-estimate given has ${opts.sEstimate.coefficients.length} coefficients, expected ${design.p}`, { field: 'sEstimate' });
-  }
-  const s = opts.sEstimate ?? sEstimateOnDesign(design, y, { ...opts.sEstimator, seed });
+  const s = checkedSEstimate(opts.sEstimate, design.p) ?? sEstimateOnDesign(design, y, { ...opts.sEstimator, seed });
   const m = mEstimateOnDesign(design, y, norm, {
     start: s.coefficients,
     startKind: 's-estimate',

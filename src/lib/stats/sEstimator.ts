@@ -247,6 +247,19 @@ function smallestScale(fits: Refined[]): Refined {
 }
 
 /**
+ * An S-estimate handed in by a caller (one analysis shares one), checked to have the design's p coefficients.
+ *
+ * @example
+ * const s = checkedSEstimate(opts.sEstimate, design.p) ?? sEstimateOnDesign(design, y, { seed });
+ */
+export function checkedSEstimate(given: SEstimate | undefined, p: number): SEstimate | undefined {
+  if (given && given.coefficients.length !== p) {
+    throw new StatsInputError(`the S-estimate given has ${given.coefficients.length} coefficients, expected ${p}`, { field: 'sEstimate' });
+  }
+  return given;
+}
+
+/**
  * Fast-S on a prepared design; shared by fitSEstimator, the M-estimator start and MM. Algorithm as fitSEstimator.
  *
  * @example

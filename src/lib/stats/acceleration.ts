@@ -97,6 +97,23 @@ function leastSquaresCoefficients(columns: number[][], f: number[]): number[] | 
   return nn > 0 ? [dot(newest, f) / nn] : null;
 }
 
+/**
+ * Relative change ‖next − previous‖/‖previous‖ of a coefficient vector (the irls.delta of MASS::rlm), over the first
+ * `length` entries (all by default): the stopping rule of IRLS and of the S refinement.
+ *
+ * @example
+ * relativeChange(Float64Array.of(1, 2), Float64Array.of(1, 2.002)); // ≈ 8.9e-4
+ */
+export function relativeChange(previous: Float64Array, next: Float64Array, length = next.length): number {
+  let diff = 0;
+  let size = 0;
+  for (let j = 0; j < length; j++) {
+    diff += (next[j] - previous[j]) ** 2;
+    size += previous[j] ** 2;
+  }
+  return Math.sqrt(diff / Math.max(1e-20, size));
+}
+
 /** Where a fixed-point iteration stopped: the last mapped iterate G(β), the steps taken and whether the rule was met. */
 export interface FixedPointResult {
   beta: Float64Array;

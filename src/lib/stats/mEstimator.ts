@@ -1,4 +1,4 @@
-import { iterateToFixedPoint } from './acceleration';
+import { iterateToFixedPoint, relativeChange } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
@@ -90,17 +90,6 @@ export function sandwichCovariance(
   const k = 1 + (p / n) * (varDeriv / (meanDeriv * meanDeriv));
   const factor = (k * k * (sumPsi2 / (n - p)) * scale * scale) / (meanDeriv * meanDeriv);
   return design.crossProductInverse(null).map((row) => row.map((v) => v * factor));
-}
-
-/** Relative change ‖new − old‖/‖old‖ (the irls.delta of MASS::rlm). */
-function relativeChange(previous: Float64Array, next: Float64Array): number {
-  let diff = 0;
-  let size = 0;
-  for (let j = 0; j < next.length; j++) {
-    diff += (next[j] - previous[j]) ** 2;
-    size += previous[j] ** 2;
-  }
-  return Math.sqrt(diff / Math.max(1e-20, size));
 }
 
 /** Start coefficients and how they were obtained. */

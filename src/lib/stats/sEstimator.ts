@@ -1,4 +1,4 @@
-import { iterateToFixedPoint } from './acceleration';
+import { iterateToFixedPoint, relativeChange } from './acceleration';
 import { StatsInputError } from './errors';
 import { createDesign, madScale, toArray, type LinearDesign } from './linear';
 import { validateResponse } from './ols';
@@ -222,15 +222,8 @@ function refineFully(design: LinearDesign, y: Float64Array, start: Candidate, se
     residualsOf = out;
     return out;
   };
-  const coefficientChange = (from: Float64Array, to: Float64Array) => {
-    let diff = 0;
-    let size = 0;
-    for (let j = 0; j < p; j++) {
-      diff += (to[j] - from[j]) ** 2;
-      size += from[j] ** 2;
-    }
-    return Math.sqrt(diff / Math.max(1e-20, size));
-  };
+  // the rule looks at the coefficients only, not at the scale carried as the state's last entry
+  const coefficientChange = (from: Float64Array, to: Float64Array) => relativeChange(from, to, p);
   const initial = new Float64Array(p + 1);
   initial.set(start.beta);
   initial[p] = start.scale;

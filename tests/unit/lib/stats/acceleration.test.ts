@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { AndersonAcceleration, iterateToFixedPoint } from '../../../../src/lib/stats/acceleration';
+import { AndersonAcceleration, iterateToFixedPoint, relativeChange } from '../../../../src/lib/stats/acceleration';
 import { fitMEstimator, fitRobustLine } from '../../../../src/lib/stats/mEstimator';
 import { normByKey } from '../../../../src/lib/stats/norms';
 import { datasets, lineDataNames, rReference } from './robustFixtures';
@@ -81,5 +81,13 @@ describe('accelerated IRLS against plain IRLS and MASS::rlm', () => {
     const accelerated = fitRobustLine(x, y, 'huber');
     expect(plain.slope).toBeCloseTo(accelerated.slope, 8);
     expect(plain.iterations).toBeGreaterThanOrEqual(accelerated.iterations!);
+  });
+});
+
+describe('relativeChange', () => {
+  it('is ‖next − previous‖/‖previous‖, over the first entries when a length is given', () => {
+    // by hand: ‖(0, 0.002)‖ / ‖(1, 2)‖ = 0.002 / √5
+    expect(relativeChange(Float64Array.of(1, 2), Float64Array.of(1, 2.002))).toBeCloseTo(0.002 / Math.sqrt(5), 15);
+    expect(relativeChange(Float64Array.of(1, 2, 100), Float64Array.of(1, 2.002, 5), 2)).toBeCloseTo(0.002 / Math.sqrt(5), 15);
   });
 });

@@ -41,9 +41,12 @@ export interface SEstimate {
   residuals: number[];
 }
 
-/** Σρ(rᵢ/s)/(n − p) for the bisquare ρ normalised to sup ρ = 1, ρ(u) = 1 − (1 − (u/c)²)³ for |u| ≤ c, 1 beyond. */
-function meanRho(residuals: Float64Array, scale: number, c: number, df: number): number {
-  const k = 1 / (scale * c);
+/**
+ * Σρ(rᵢ/s) over the residuals for the bisquare ρ normalised to sup ρ = 1, ρ(u) = 1 − (1 − (u/c)²)³ for |u| ≤ c and
+ * 1 beyond, given the cutoff c·s (Rousseeuw & Yohai 1984). A cutoff of Infinity gives 0.
+ */
+function sumRho(residuals: Float64Array, cutoff: number): number {
+  const k = 1 / cutoff;
   let sum = 0;
   for (let i = 0; i < residuals.length; i++) {
     const u = residuals[i] * k;
@@ -54,7 +57,7 @@ function meanRho(residuals: Float64Array, scale: number, c: number, df: number):
       sum += 1 - v * v * v;
     }
   }
-  return sum / df;
+  return sum;
 }
 
 /**
@@ -109,25 +112,193 @@ export function mScale(
   return scale;
 }
 
-/** One I-step of fast-S: weighted least squares with bisquare weights at the current scale, then one scale step. */
-function refinementStep(
-  design: LinearDesign,
-  y: Float64Array,
-  residuals: Float64Array,
-  weights: Float64Array,
-  scale: number,
-  c: number,
-  b: number,
-): { beta: Float64Array; scale: number } {
-  const k = 1 / (scale * c);
-  for (let i = 0; i < residuals.length; i++) {
-    const u = residuals[i] * k;
-    const z = u * u;
-    weights[i] = z >= 1 ? 0 : (1 - z) * (1 - z);
+/**
+ * The passes over the data that fast-S repeats for every subsample, for one design and response. Cutoffs are c·s:
+ * residuals beyond them get bisquare weight 0 and ρ = 1.
+ */
+interface SearchKernel {
+  readonly n: number;
+  readonly p: number;
+  /** Writes into `beta` the fit passing exactly through the p rows `rows`; false when those rows are singular. */
+  exactFit(rows: readonly number[], beta: Float64Array): boolean;
+  /** Writes yᵢ − xᵢ'β into `residuals` (β: the first p entries of `beta`). */
+  residuals(beta: Float64Array, residuals: Float64Array): void;
+  /** Writes the residuals at β into `residuals` and returns their Σρ(rᵢ/s) (see sumRho), in one pass. */
+  residualsAndRho(beta: Float64Array, cutoff: number, residuals: Float64Array): number;
+  /**
+   * One weighted least squares fit with the bisquare weights (1 − (rᵢ/cutoff)²)² (0 beyond the cutoff) of the residuals
+   * at β, written into the first p entries of `out` (which may be `beta`); false when the rows with weight are singular.
+   */
+  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean;
+  /** The kernel of the given rows only, in that order. */
+  select(rows: ArrayLike<number>): SearchKernel;
+}
+
+/**
+ * The kernel of the line y = a + b·x in closed form, each step one pass over x and y: the weighted fit regresses the
+ * residuals on x (Δb = Σw(x − x̄)(r − r̄)/Σw(x − x̄)², Δa = r̄ − Δb·x̄ with weighted means; any regression text), with sums
+ * about the mean of x, and adds (Δa, Δb) to β, so the sums hold residuals, not the far larger y.
+ */
+class LineKernel implements SearchKernel {
+  readonly n: number;
+  readonly p = 2;
+  private readonly shiftX: number;
+
+  constructor(
+    private readonly x: Float64Array,
+    private readonly y: Float64Array,
+  ) {
+    this.n = x.length;
+    let sum = 0;
+    for (let i = 0; i < this.n; i++) sum += x[i];
+    this.shiftX = sum / this.n;
   }
-  const beta = design.solveWeighted(y, weights);
-  design.residuals(y, beta, residuals);
-  return { beta, scale: scale * Math.sqrt(meanRho(residuals, scale, c, residuals.length - design.p) / b) };
+
+  exactFit(rows: readonly number[], beta: Float64Array): boolean {
+    const { x, y } = this;
+    const i = rows[0];
+    const j = rows[1];
+    const dx = x[j] - x[i];
+    if (dx === 0) return false;
+    const slope = (y[j] - y[i]) / dx;
+    beta[0] = y[i] - slope * x[i];
+    beta[1] = slope;
+    return true;
+  }
+
+  residuals(beta: Float64Array, residuals: Float64Array): void {
+    const { x, y, n } = this;
+    const a = beta[0];
+    const b = beta[1];
+    for (let i = 0; i < n; i++) residuals[i] = y[i] - a - b * x[i];
+  }
+
+  residualsAndRho(beta: Float64Array, cutoff: number, residuals: Float64Array): number {
+    const { x, y, n } = this;
+    const a = beta[0];
+    const b = beta[1];
+    const k = 1 / cutoff;
+    let sum = 0;
+    for (let i = 0; i < n; i++) {
+      const r = y[i] - a - b * x[i];
+      residuals[i] = r;
+      const u = r * k;
+      const v = 1 - Math.min(u * u, 1);
+      sum += v * v * v;
+    }
+    return n - sum;
+  }
+
+  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean {
+    const { x, y, n, shiftX } = this;
+    const a = beta[0];
+    const b = beta[1];
+    const k = 1 / cutoff;
+    let sumW = 0;
+    let sumX = 0;
+    let sumR = 0;
+    let sumXX = 0;
+    let sumXR = 0;
+    for (let i = 0; i < n; i++) {
+      const r = y[i] - a - b * x[i];
+      const u = r * k;
+      const v = 1 - Math.min(u * u, 1);
+      const w = v * v;
+      const dx = x[i] - shiftX;
+      const wdx = w * dx;
+      sumW += w;
+      sumX += wdx;
+      sumR += w * r;
+      sumXX += wdx * dx;
+      sumXR += wdx * r;
+    }
+    const sxx = sumXX - (sumX * sumX) / sumW;
+    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) return false;
+    const slopeChange = (sumXR - (sumX * sumR) / sumW) / sxx;
+    out[0] = a + sumR / sumW - slopeChange * (shiftX + sumX / sumW);
+    out[1] = b + slopeChange;
+    return true;
+  }
+
+  select(rows: ArrayLike<number>): SearchKernel {
+    const x = new Float64Array(rows.length);
+    const y = new Float64Array(rows.length);
+    for (let k = 0; k < rows.length; k++) {
+      x[k] = this.x[rows[k]];
+      y[k] = this.y[rows[k]];
+    }
+    return new LineKernel(x, y);
+  }
+}
+
+/** The kernel of any other design, through the design's own residuals and weighted least squares (QR). */
+class DesignKernel implements SearchKernel {
+  readonly n: number;
+  readonly p: number;
+  private readonly work: Float64Array;
+  private readonly weights: Float64Array;
+
+  constructor(
+    private readonly design: LinearDesign,
+    private readonly y: Float64Array,
+  ) {
+    this.n = design.n;
+    this.p = design.p;
+    this.work = new Float64Array(this.n);
+    this.weights = new Float64Array(this.n);
+  }
+
+  exactFit(rows: readonly number[], beta: Float64Array): boolean {
+    const fit = this.design.solveExact(rows, this.y);
+    if (fit) beta.set(fit);
+    return fit !== null;
+  }
+
+  residuals(beta: Float64Array, residuals: Float64Array): void {
+    this.design.residuals(this.y, beta.subarray(0, this.p), residuals);
+  }
+
+  residualsAndRho(beta: Float64Array, cutoff: number, residuals: Float64Array): number {
+    this.residuals(beta, residuals);
+    return sumRho(residuals, cutoff);
+  }
+
+  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean {
+    const { work, weights } = this;
+    this.residuals(beta, work);
+    const k = 1 / cutoff;
+    for (let i = 0; i < this.n; i++) {
+      const u = work[i] * k;
+      const z = u * u;
+      weights[i] = z >= 1 ? 0 : (1 - z) * (1 - z);
+    }
+    try {
+      out.set(this.design.solveWeighted(this.y, weights));
+      return true;
+    } catch (error) {
+      if (error instanceof StatsInputError) return false;
+      throw error;
+    }
+  }
+
+  select(rows: ArrayLike<number>): SearchKernel {
+    return new DesignKernel(this.design.select(rows), Float64Array.from(rows, (i) => this.y[i]));
+  }
+}
+
+/** Column j of X, read through the design: y − Xβ with y = 0 and β = −eⱼ. */
+function designColumn(design: LinearDesign, j: number): Float64Array {
+  const beta = new Float64Array(design.p);
+  beta[j] = -1;
+  const column = new Float64Array(design.n);
+  design.residuals(new Float64Array(design.n), beta, column);
+  return column;
+}
+
+/** The closed-form line kernel when X is [1, x], whatever design holds it; the design's own operations otherwise. */
+function searchKernel(design: LinearDesign, y: Float64Array): SearchKernel {
+  if (design.p === 2 && designColumn(design, 0).every((v) => v === 1)) return new LineKernel(designColumn(design, 1), y);
+  return new DesignKernel(design, y);
 }
 
 interface Candidate {
@@ -138,16 +309,17 @@ interface Candidate {
 interface Refined extends Candidate {
   iterations: number;
   converged: boolean;
+  residuals: Float64Array;
 }
 
-/** Draws p distinct row indices. */
-function drawRows(n: number, p: number, next: (n: number) => number): number[] {
-  const rows: number[] = [];
-  while (rows.length < p) {
-    const i = next(n);
-    if (!rows.includes(i)) rows.push(i);
+/** Fills `rows` with distinct row indices below n, drawn in turn (a repeat is drawn again). */
+function drawRows(n: number, rows: number[], rng: SeededRandom): void {
+  for (let k = 0; k < rows.length; ) {
+    const i = rng.int(n);
+    let repeat = false;
+    for (let j = 0; j < k; j++) if (rows[j] === i) repeat = true;
+    if (!repeat) rows[k++] = i;
   }
-  return rows;
 }
 
 /** Constants of one S-estimation, after validation. */
@@ -163,76 +335,93 @@ interface Settings {
 
 /**
  * The subsampling stage of fast-S: elemental fits, `refinementSteps` I-steps each, and the `bestCandidates`
- * smallest M-scales kept, in increasing order of scale.
+ * smallest M-scales kept, in increasing order of scale. An I-step is a weighted least squares fit with bisquare
+ * weights at the current scale s, then the scale step s ← s·√(Σρ(r/s)/((n − p)b)).
  */
-function searchCandidates(design: LinearDesign, y: Float64Array, settings: Settings, rng: SeededRandom): Candidate[] {
+function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededRandom): Candidate[] {
   const { subsamples, refinementSteps, bestCandidates, c, b } = settings;
-  const { n, p } = design;
+  const { n, p } = kernel;
+  const bound = (n - p) * b; // Σρ(r/s) at the M-scale s
   const residuals = new Float64Array(n);
-  const weights = new Float64Array(n);
   const scratch = new Float64Array(n);
-  const best: Candidate[] = [];
-  const maxDraws = subsamples * 50;
+  const rows = new Array<number>(p).fill(0);
+  const beta = new Float64Array(p);
+  const keptScales = new Float64Array(bestCandidates); // increasing
+  const keptBetas = new Float64Array(bestCandidates * p);
+  let kept = 0;
   let accepted = 0;
-  for (let draws = 0; accepted < subsamples && draws < maxDraws; draws++) {
-    const elemental = design.solveExact(drawRows(n, p, rng.int), y);
-    if (!elemental) continue; // singular subsample (e.g. two equal x): draw again
+  const maxDraws = subsamples * 50;
+  subsample: for (let draws = 0; accepted < subsamples && draws < maxDraws; draws++) {
+    drawRows(n, rows, rng);
+    if (!kernel.exactFit(rows, beta)) continue; // singular subsample (e.g. two equal x): draw again
     accepted++;
-    let beta = elemental;
-    design.residuals(y, beta, residuals);
+    kernel.residuals(beta, residuals);
     let scale = madScale(residuals, scratch);
-    try {
-      for (let k = 0; k < refinementSteps; k++) ({ beta, scale } = refinementStep(design, y, residuals, weights, scale, c, b));
-    } catch (error) {
-      if (error instanceof StatsInputError) continue; // all weight on one x value: this candidate cannot be refined
-      throw error;
+    // Σρ(r/s) decreases in s: if it is ≥ (n − p)b at the worst kept scale, this candidate's M-scale is not smaller
+    const worst = kept === bestCandidates ? keptScales[kept - 1] : Infinity;
+    let rhoAtWorst = refinementSteps === 0 ? sumRho(residuals, c * worst) : 0;
+    for (let step = 1; step <= refinementSteps; step++) {
+      if (!kernel.bisquareFit(beta, c * scale, beta)) continue subsample; // all weight on one x value: cannot be refined
+      // the last step's scale would only start the M-scale below, so its pass checks the worst kept scale instead
+      if (step === refinementSteps) rhoAtWorst = kernel.residualsAndRho(beta, c * worst, residuals);
+      else scale *= Math.sqrt(kernel.residualsAndRho(beta, c * scale, residuals) / bound);
     }
-    // Σρ(r/s) decreases in s: if the equation's left side is ≥ b at the worst kept scale, this scale is not smaller
-    const worst = best.length === bestCandidates ? best[best.length - 1].scale : Infinity;
-    if (worst < Infinity && meanRho(residuals, worst, c, n - p) >= b) continue;
-    const candidate = { beta, scale: mScale(residuals, p, c, b, scale) };
-    const at = best.findIndex((kept) => kept.scale > candidate.scale);
-    best.splice(at === -1 ? best.length : at, 0, candidate);
-    if (best.length > bestCandidates) best.pop();
+    if (rhoAtWorst >= bound) continue;
+    const candidateScale = mScale(residuals, p, c, b, scale);
+    if (kept === bestCandidates && !(candidateScale < worst)) continue;
+    if (kept < bestCandidates) kept++;
+    let at = kept - 1;
+    for (; at > 0 && keptScales[at - 1] > candidateScale; at--) {
+      keptScales[at] = keptScales[at - 1];
+      keptBetas.copyWithin(at * p, (at - 1) * p, at * p);
+    }
+    keptScales[at] = candidateScale;
+    keptBetas.set(beta, at * p);
   }
-  if (best.length === 0) {
+  if (kept === 0) {
     throw new StatsInputError('no non-singular subsample of the data was found: the columns of X look collinear', {
       field: 'X',
     });
   }
-  return best;
+  return Array.from({ length: kept }, (_, k) => ({ beta: keptBetas.slice(k * p, (k + 1) * p), scale: keptScales[k] }));
 }
 
 /**
  * I-steps from `start` until the relative change in the coefficients is ≤ tolerance; then the exact M-scale.
  * The state iterated is (β, s), accelerated near convergence like IRLS (acceleration.ts), to the same fixed point.
  */
-function refineFully(design: LinearDesign, y: Float64Array, start: Candidate, settings: Settings): Refined {
+function refineFully(kernel: SearchKernel, start: Candidate, settings: Settings): Refined {
   const { c, b, maxIterations, tolerance } = settings;
-  const { n, p } = design;
+  const { n, p } = kernel;
+  const bound = (n - p) * b;
   const residuals = new Float64Array(n);
-  const weights = new Float64Array(n);
   let residualsOf: Float64Array | null = null; // the state whose residuals `residuals` holds
   const step = (state: Float64Array): Float64Array => {
-    if (state !== residualsOf) design.residuals(y, state.subarray(0, p), residuals);
-    const next = refinementStep(design, y, residuals, weights, state[p], c, b);
-    const out = new Float64Array(p + 1);
-    out.set(next.beta);
-    out[p] = next.scale;
-    residualsOf = out;
-    return out;
+    const scale = state[p];
+    const next = new Float64Array(p + 1);
+    if (!kernel.bisquareFit(state, c * scale, next)) {
+      throw new StatsInputError('the S-estimate cannot be refined: the samples with non-zero weight do not determine a fit', {
+        field: 'X',
+      });
+    }
+    next[p] = scale * Math.sqrt(kernel.residualsAndRho(next, c * scale, residuals) / bound);
+    residualsOf = next;
+    return next;
   };
   // the rule looks at the coefficients only, not at the scale carried as the state's last entry
   const coefficientChange = (from: Float64Array, to: Float64Array) => relativeChange(from, to, p);
   const initial = new Float64Array(p + 1);
   initial.set(start.beta);
   initial[p] = start.scale;
-  design.residuals(y, start.beta, residuals);
-  residualsOf = initial;
   const result = iterateToFixedPoint(step, coefficientChange, initial, tolerance, maxIterations);
-  const beta = result.beta.slice(0, p);
-  if (result.beta !== residualsOf) design.residuals(y, beta, residuals);
-  return { beta, scale: mScale(residuals, p, c, b, result.beta[p]), iterations: result.iterations, converged: result.converged };
+  if (result.beta !== residualsOf) kernel.residuals(result.beta, residuals);
+  return {
+    beta: result.beta.slice(0, p),
+    scale: mScale(residuals, p, c, b, result.beta[p]),
+    iterations: result.iterations,
+    converged: result.converged,
+    residuals,
+  };
 }
 
 function smallestScale(fits: Refined[]): Refined {
@@ -301,45 +490,41 @@ export function sEstimateOnDesign(design: LinearDesign, y: Float64Array, opts: S
     );
   }
   const rng = seededRandom(seed);
+  const kernel = searchKernel(design, y);
+  const searchAndRefine = (on: SearchKernel) =>
+    smallestScale(searchCandidates(on, settings, rng).map((candidate) => refineFully(on, candidate, settings)));
   let result: Refined;
   if (n > searchSubsetSize) {
     // large n: search and refine on a random subset, then refine the winner on all the data
-    const rows = sampleWithoutReplacement(n, searchSubsetSize, rng);
-    const subset = design.select(rows);
-    const subsetY = Float64Array.from(rows, (i) => y[i]);
-    const onSubset = smallestScale(
-      searchCandidates(subset, subsetY, settings, rng).map((candidate) => refineFully(subset, subsetY, candidate, settings)),
-    );
+    const onSubset = searchAndRefine(kernel.select(sampleWithoutReplacement(n, searchSubsetSize, rng)));
     const residuals = new Float64Array(n);
-    design.residuals(y, onSubset.beta, residuals);
-    const scale = mScale(residuals, p, c, b, madScale(residuals, new Float64Array(n)));
-    result = refineFully(design, y, { beta: onSubset.beta, scale }, settings);
+    kernel.residuals(onSubset.beta, residuals);
+    // the M-scale equation has one root, so the subset's scale, close to it, is as good a start as any and cheaper
+    const scale = mScale(residuals, p, c, b, onSubset.scale);
+    result = refineFully(kernel, { beta: onSubset.beta, scale }, settings);
   } else {
-    result = smallestScale(
-      searchCandidates(design, y, settings, rng).map((candidate) => refineFully(design, y, candidate, settings)),
-    );
+    result = searchAndRefine(kernel);
   }
-  const residuals = new Float64Array(n);
-  design.residuals(y, result.beta, residuals);
   return {
     coefficients: toArray(result.beta),
     scale: result.scale,
     iterations: result.iterations,
     converged: result.converged,
-    residuals: toArray(residuals),
+    residuals: toArray(result.residuals),
   };
 }
 
 /** k distinct indices from 0..n−1 in increasing order (partial Fisher–Yates shuffle). */
-function sampleWithoutReplacement(n: number, k: number, rng: SeededRandom): number[] {
-  const pool = Array.from({ length: n }, (_, i) => i);
+function sampleWithoutReplacement(n: number, k: number, rng: SeededRandom): Int32Array {
+  const pool = new Int32Array(n);
+  for (let i = 0; i < n; i++) pool[i] = i;
   for (let i = 0; i < k; i++) {
     const j = i + rng.int(n - i);
     const t = pool[i];
     pool[i] = pool[j];
     pool[j] = t;
   }
-  return pool.slice(0, k).sort((i, j) => i - j);
+  return pool.slice(0, k).sort();
 }
 
 /**

@@ -57,6 +57,23 @@ describe('S-estimate properties', () => {
     expect(subsetSearch.scale).toBeCloseTo(fullSearch.scale, 8);
   });
 
+  it('a design other than [1, x] goes through the design\'s own fits to the same minimum as the line', () => {
+    const { x, y } = datasets.badLeverage;
+    const line = fitSEstimator(x.map((v) => [1, v]), y);
+    const doubledIntercept = fitSEstimator(x.map((v) => [2, v]), y); // intercept coefficient a/2
+    expectRelativelyClose(doubledIntercept.coefficients, [line.coefficients[0] / 2, line.coefficients[1]], 1e-6, 1); // absolute below 1
+    expect(doubledIntercept.scale).toBeCloseTo(line.scale, 9);
+  });
+
+  it('without I-steps (refinementSteps 0) the elemental fits are ranked as they are and still lead to the minimum', () => {
+    for (const name of lineDataNames) {
+      const X = datasets[name].x.map((v) => [1, v]);
+      const fit = fitSEstimator(X, datasets[name].y, { refinementSteps: 0 });
+      expectRelativelyClose(fit.coefficients, rReference[name].lmrob.sCoefficients, 1e-5, 1);
+      expectRelativelyClose([fit.scale], [rReference[name].lmrob.sScale], 1e-10);
+    }
+  });
+
   it('throws when more than half the samples lie exactly on one line', () => {
     const x = [1, 2, 3, 4, 5, 6, 7, 8, 9];
     const y = [1, 2, 3, 4, 5, 6, 9, 2, 11];

@@ -401,6 +401,16 @@ class PairSink {
   }
 }
 
+/** A slope bound t with the points in the stable order of their keys y − t·x, and the number of slopes below t. */
+interface SortedBound {
+  t: number;
+  order: Int32Array;
+  count: number;
+}
+
+/** How many sorted bounds SelectedSlopes keeps (each n integers). */
+const SORTED_BOUNDS_KEPT = 4;
+
 /**
  * Order statistics of the finite slopes without listing them. A slope bound t is represented by
  * the key y − t·x of every point (t = ±∞ by the limiting orders); the pairs between bounds lo < hi
@@ -421,10 +431,11 @@ class SelectedSlopes implements SlopeSet {
   private readonly sampleSize: number;
   private firstSample: Float64Array | null = null;
   // Scratch buffers, reused by every pass.
-  private readonly keyLo: Float64Array;
-  private readonly keyHi: Float64Array;
-  private readonly sequence: Int32Array;
+  private readonly key: Float64Array;
+  private readonly identity: Int32Array;
   private readonly work: Int32Array;
+  /** The last SORTED_BOUNDS_KEPT bounds sorted, most recent first: a bound is counted, then often sorted by again. */
+  private readonly sortedBounds: SortedBound[] = [];
   private readonly scratch: MergeScratch;
 
   constructor(points: Points) {
@@ -448,9 +459,8 @@ class SelectedSlopes implements SlopeSet {
     this.marginPerSlope = (1e-6 * maxAbsX) / rangeX;
     this.listBudget = Math.max(4 * n, 20_000);
     this.sampleSize = Math.max(2 * n, 10_000);
-    this.keyLo = new Float64Array(n);
-    this.keyHi = new Float64Array(n);
-    this.sequence = new Int32Array(n);
+    this.key = new Float64Array(n);
+    this.identity = Int32Array.from({ length: n }, (_, i) => i);
     this.work = new Int32Array(n);
     this.scratch = mergeScratch(n);
 
@@ -641,31 +651,37 @@ class SelectedSlopes implements SlopeSet {
 
   /** The points in the stable order of the keys at lo (identity for lo = −∞). */
   private orderAt(lo: number): Int32Array {
-    const sequence = this.sequence;
-    for (let i = 0; i < this.n; i++) sequence[i] = i;
-    if (lo !== -Infinity) {
-      this.fillKey(lo, this.keyLo);
-      mergeSort(sequence, this.keyLo, this.scratch, null, null);
-    }
-    return sequence;
+    return lo === -Infinity ? this.identity : this.sortedAt(lo).order;
   }
 
   /** Approximate number of finite slopes below t (exact away from rounding distance of t). */
   private countBelow(t: number): number {
     if (t === -Infinity) return 0;
     if (t === Infinity) return this.finiteCount;
-    const work = this.work;
-    for (let i = 0; i < this.n; i++) work[i] = i;
-    this.fillKey(t, this.keyHi);
-    return mergeSort(work, this.keyHi, this.scratch, null, null);
+    return this.sortedAt(t).count;
+  }
+
+  /** The points sorted stably by their keys at a finite t from x order, and the inversions counted on the way. */
+  private sortedAt(t: number): SortedBound {
+    const kept = this.sortedBounds;
+    const index = kept.findIndex((bound) => bound.t === t);
+    const found = index >= 0 ? kept.splice(index, 1)[0] : null;
+    const bound = found ?? (kept.length < SORTED_BOUNDS_KEPT ? { t, order: new Int32Array(this.n), count: 0 } : kept.pop()!);
+    if (!found) {
+      bound.t = t;
+      bound.order.set(this.identity);
+      this.fillKey(t, this.key);
+      bound.count = mergeSort(bound.order, this.key, this.scratch, null, null);
+    }
+    kept.unshift(bound);
+    return bound;
   }
 
   /** Hands every pair with slope between lo and hi to `sink`. */
   private pairsBetween(lo: number, hi: number, sink: PairSink): PairSink {
-    const sequence = this.orderAt(lo);
-    this.work.set(sequence);
-    this.fillKey(hi, this.keyHi);
-    mergeSort(this.work, this.keyHi, this.scratch, null, sink);
+    this.work.set(this.orderAt(lo));
+    this.fillKey(hi, this.key);
+    mergeSort(this.work, this.key, this.scratch, null, sink);
     return sink;
   }
 
@@ -694,9 +710,9 @@ class SelectedSlopes implements SlopeSet {
     const sequence = this.orderAt(lo);
     const work = this.work;
     work.set(sequence);
-    this.fillKey(hi, this.keyHi);
+    this.fillKey(hi, this.key);
     const earlierLarger = new Float64Array(n);
-    const total = mergeSort(work, this.keyHi, this.scratch, earlierLarger, null);
+    const total = mergeSort(work, this.key, this.scratch, earlierLarger, null);
     // work is now sorted by the hi key (stably): rank of each point, and back.
     const rankOf = new Int32Array(n);
     for (let r = 0; r < n; r++) rankOf[work[r]] = r;
@@ -724,11 +740,16 @@ class SelectedSlopes implements SlopeSet {
   }
 }
 
+/** Runs of this many items are insertion-sorted before merging: four fewer passes over the arrays. */
+const INSERTION_RUN = 16;
+
 /**
- * Stable bottom-up merge sort of `items` by key[item], counting strict inversions
+ * Stable merge sort of `items` by key[item], counting strict inversions
  * (pairs p before q with key[p] > key[q]). Optionally adds per item q the number of such p
  * to earlierLarger[q], and hands each run of such p with its q to `sink`. Returns the inversion count.
- * The keys travel with the items (sequential memory access), in the scratch arrays of `scratch`.
+ * Runs of INSERTION_RUN items are insertion-sorted first (the items an item moves past are exactly its
+ * inversions within the run), then merged bottom-up. The keys travel with the items (sequential memory
+ * access), in the scratch arrays of `scratch`.
  */
 function mergeSort(
   items: Int32Array,
@@ -744,7 +765,27 @@ function mergeSort(
   let dstKey = scratch.keysB;
   for (let i = 0; i < n; i++) srcKey[i] = key[items[i]];
   let inversions = 0;
-  for (let width = 1; width < n; width *= 2) {
+  for (let start = 0; start < n; start += INSERTION_RUN) {
+    const end = Math.min(start + INSERTION_RUN, n);
+    for (let i = start + 1; i < end; i++) {
+      const value = srcKey[i];
+      if (!(srcKey[i - 1] > value)) continue;
+      const q = src[i];
+      let j = i - 1;
+      do {
+        srcKey[j + 1] = srcKey[j];
+        src[j + 1] = src[j];
+        j--;
+      } while (j >= start && srcKey[j] > value);
+      srcKey[j + 1] = value;
+      src[j + 1] = q;
+      // the items moved past, now at j + 2 .. i
+      inversions += i - j - 1;
+      if (earlierLarger) earlierLarger[q] += i - j - 1;
+      if (sink) sink.take(src, j + 2, i + 1, q);
+    }
+  }
+  for (let width = INSERTION_RUN; width < n; width *= 2) {
     for (let start = 0; start < n; start += 2 * width) {
       const mid = Math.min(start + width, n);
       const end = Math.min(start + 2 * width, n);
@@ -752,17 +793,23 @@ function mergeSort(
       let j = mid;
       let k = start;
       if (mid < end && srcKey[mid - 1] > srcKey[mid]) {
-        while (i < mid && j < end) {
-          if (srcKey[j] < srcKey[i]) {
+        let keyI = srcKey[i];
+        let keyJ = srcKey[j];
+        for (;;) {
+          if (keyJ < keyI) {
             const q = src[j];
             inversions += mid - i;
             if (earlierLarger) earlierLarger[q] += mid - i;
             if (sink) sink.take(src, i, mid, q);
-            dstKey[k] = srcKey[j];
-            dst[k++] = src[j++];
+            dstKey[k] = keyJ;
+            dst[k++] = q;
+            if (++j === end) break;
+            keyJ = srcKey[j];
           } else {
-            dstKey[k] = srcKey[i];
-            dst[k++] = src[i++];
+            dstKey[k] = keyI;
+            dst[k++] = src[i];
+            if (++i === mid) break;
+            keyI = srcKey[i];
           }
         }
       }

@@ -1,6 +1,7 @@
 import { StatsInputError } from './errors';
 import { normalQuantile } from './distributions';
 import { seededRandom, type SeededRandom } from './random';
+import { selectKth } from './linear';
 import { validateConfidence, validatePairs } from './validate';
 import type { LineFit } from './types';
 
@@ -250,8 +251,25 @@ function medianOffset(points: Points, slope: number): number {
   const n = points.x.length;
   const offsets = new Float64Array(n);
   for (let i = 0; i < n; i++) offsets[i] = points.y[i] - slope * points.x[i];
-  offsets.sort();
-  return n % 2 === 1 ? offsets[(n - 1) / 2] : (offsets[n / 2 - 1] + offsets[n / 2]) / 2;
+  const upper = sortedValueAt(offsets, n >> 1);
+  return n % 2 === 1 ? upper : (sortedValueAt(offsets, n / 2 - 1) + upper) / 2;
+}
+
+/**
+ * The value that sorting `values` ascending (Float64Array sort: numeric, −0 before +0) puts at the 0-based
+ * `index`, found by selection in expected linear time (selectKth); reorders `values`.
+ */
+function sortedValueAt(values: Float64Array, index: number): number {
+  const value = selectKth(values, index);
+  if (value !== 0) return value;
+  // comparisons cannot tell −0 from +0, which the sorted order puts first
+  let negative = 0;
+  let negativeZeros = 0;
+  for (let i = 0; i < values.length; i++) {
+    if (values[i] < 0) negative++;
+    else if (Object.is(values[i], -0)) negativeZeros++;
+  }
+  return index < negative + negativeZeros ? -0 : 0;
 }
 
 function cusumTest(points: Points, intercept: number, slope: number, alpha: number): CusumTest {
@@ -594,7 +612,7 @@ class SelectedSlopes implements SlopeSet {
       const from = bin === 0 ? -Infinity : edges[bin / 2 - 1];
       const to = bin === bins.length - 1 ? Infinity : edges[bin / 2];
       const gap = this.pairsBetween(bandLo, bandHi, new PairSink(this.points, 'list', 0, from, to));
-      const value = gap.listed.subarray(0, gap.listedLength).sort()[k - before - 1];
+      const value = sortedValueAt(gap.listed.subarray(0, gap.listedLength), k - before - 1);
       if (value < bandLo + marginLo / 2 || value > bandHi - marginHi / 2) {
         if (depth >= 3) throw new Error(`slope selection could not separate rank ${k} from rounding`);
         const wider = Float64Array.from(new Set([value, ...edges])).sort();
@@ -607,7 +625,7 @@ class SelectedSlopes implements SlopeSet {
   }
 
   /**
-   * Lists the slopes between lo and hi (countLo of them below lo), sorts them and picks the ranks.
+   * Lists the slopes between lo and hi (countLo of them below lo) and picks the ranks from them.
    * Each picked slope must lie clear of both bounds by half the rounding margin: then no slope can
    * have been put on the wrong side of a bound by rounding. Otherwise the bounds are widened by the
    * margin and tried once more. Refuses (false) when that fails too or too many slopes lie between.
@@ -622,13 +640,13 @@ class SelectedSlopes implements SlopeSet {
       // A bound on a tie cluster can put far more pairs inside the margins than between the bounds.
       const sink = this.pairsBetween(from, to, new PairSink(this.points, 'list', 0, -Infinity, Infinity, undefined, 4 * this.listBudget));
       if (sink.overflow) return false;
-      const sorted = sink.listed.subarray(0, sink.listedLength).sort();
-      const fits = rangeOf(kLow, kHigh).every((k) => {
+      const listed = sink.listed.subarray(0, sink.listedLength);
+      const picked = rangeOf(kLow, kHigh).map((k) => {
         const index = k - below - 1;
-        return index >= 0 && index < sorted.length && sorted[index] >= from + marginLo / 2 && sorted[index] <= to - marginHi / 2;
+        return index >= 0 && index < listed.length ? sortedValueAt(listed, index) : Number.NaN;
       });
-      if (fits) {
-        for (let k = kLow; k <= kHigh; k++) out.set(k, sorted[k - below - 1]);
+      if (picked.every((value) => value >= from + marginLo / 2 && value <= to - marginHi / 2)) {
+        picked.forEach((value, i) => out.set(kLow + i, value));
         return true;
       }
     }
@@ -718,7 +736,7 @@ class SelectedSlopes implements SlopeSet {
     for (let r = 0; r < n; r++) rankOf[work[r]] = r;
     const targets = new Float64Array(size);
     for (let s = 0; s < size; s++) targets[s] = this.rng.next() * total;
-    targets.sort();
+    sortUniform(targets, total);
     const fenwick = new Int32Array(n + 1);
     let topStep = 1;
     while (topStep * 2 <= n) topStep *= 2;
@@ -859,6 +877,31 @@ function fenwickKth(tree: Int32Array, topStep: number, k: number): number {
     }
   }
   return position;
+}
+
+/**
+ * Sorts values drawn from [0, upper) ascending, in expected linear time when they are spread evenly: counted into
+ * as many equal-width buckets as values (a bucket index never decreases as the value grows), then one insertion
+ * sort over the buckets in order. Same result as sorting.
+ */
+function sortUniform(values: Float64Array, upper: number): void {
+  const m = values.length;
+  if (!(upper > 0)) return; // all values are 0
+  const scale = m / upper;
+  const bucketEnds = new Int32Array(m + 1);
+  for (let i = 0; i < m; i++) bucketEnds[Math.min(m - 1, Math.floor(values[i] * scale)) + 1]++;
+  for (let b = 0; b < m; b++) bucketEnds[b + 1] += bucketEnds[b];
+  const bucketed = new Float64Array(m);
+  for (let i = 0; i < m; i++) bucketed[bucketEnds[Math.min(m - 1, Math.floor(values[i] * scale))]++] = values[i];
+  for (let i = 0; i < m; i++) {
+    const value = bucketed[i];
+    let j = i - 1;
+    while (j >= 0 && values[j] > value) {
+      values[j + 1] = values[j];
+      j--;
+    }
+    values[j + 1] = value;
+  }
 }
 
 /** kLow, kLow + 1, …, kHigh. */

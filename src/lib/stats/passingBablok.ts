@@ -426,6 +426,15 @@ interface SortedBound {
   count: number;
 }
 
+/** A bracket lo < hi of slopes, the numbers of slopes below its ends, and a uniform sample of the pairs inside it (null: none drawn). */
+interface SearchStart {
+  lo: number;
+  hi: number;
+  countLo: number;
+  countHi: number;
+  sample: Float64Array | null;
+}
+
 /** How many sorted bounds SelectedSlopes keeps (each n integers). */
 const SORTED_BOUNDS_KEPT = 4;
 
@@ -499,34 +508,55 @@ class SelectedSlopes implements SlopeSet {
         result.clear();
       }
     }
+    const start = this.sharedStart(ranks[0], ranks[ranks.length - 1]);
     for (let g = 0; g < ranks.length; ) {
       let end = g + 1;
       while (end < ranks.length && ranks[end] - ranks[end - 1] <= 1) end++;
-      this.selectRange(ranks[g], ranks[end - 1], result);
+      this.selectRange(ranks[g], ranks[end - 1], result, start);
       g = end;
     }
     return result;
+  }
+
+  /**
+   * Where the search for every rank group starts: the ranks of a fit lie close together, so one bracket around all
+   * of them, narrowed from the first sample, and one sample of the pairs inside it serve every group. The whole
+   * range (sample drawn on demand) when the slopes are few, tied there, or the bracket misses a rank.
+   */
+  private sharedStart(kFirst: number, kLast: number): SearchStart {
+    const whole: SearchStart = { lo: -Infinity, hi: Infinity, countLo: 0, countHi: this.finiteCount, sample: null };
+    if (this.finiteCount <= this.listBudget) return whole;
+    const sample = this.sampleAll();
+    const window = sampleWindow(sample, kFirst / this.finiteCount, kLast / this.finiteCount);
+    if (window.high - window.low <= 4 * this.margin(window.low)) return whole;
+    const lo = window.iLow >= 1 ? (sample[window.iLow - 1] + sample[window.iLow]) / 2 : -Infinity;
+    const hi = window.iHigh <= sample.length - 1 ? (sample[window.iHigh - 1] + sample[window.iHigh]) / 2 : Infinity;
+    if (lo === -Infinity && hi === Infinity) return whole;
+    const countLo = this.countBelow(lo);
+    const countHi = this.countBelow(hi);
+    if (!(countLo < kFirst && countHi >= kLast)) return whole;
+    const between = countHi - countLo;
+    return { lo, hi, countLo, countHi, sample: between > this.listBudget ? this.sampleBetween(lo, hi, Math.min(this.sampleSize, between)) : null };
   }
 
   private margin(t: number): number {
     return this.marginScale + this.marginPerSlope * Math.abs(t);
   }
 
-  /** Finds the slopes of ranks kLow..kHigh (1-based, close together) into `out`. */
-  private selectRange(kLow: number, kHigh: number, out: Map<number, number>): void {
-    let lo = -Infinity;
-    let hi = Infinity;
-    let countLo = 0;
-    let countHi = this.finiteCount;
+  /** Finds the slopes of ranks kLow..kHigh (1-based, close together, inside `start`) into `out`. */
+  private selectRange(kLow: number, kHigh: number, out: Map<number, number>, start: SearchStart): void {
+    let { lo, hi, countLo, countHi } = start;
     let sampleSize = this.sampleSize;
     let stalled = false;
     for (let round = 0; round < 60; round++) {
       const between = countHi - countLo;
       if (between <= this.listBudget && this.listAndPick(lo, hi, countLo, kLow, kHigh, out)) return;
       const sample =
-        lo === -Infinity && hi === Infinity && sampleSize === this.sampleSize
-          ? this.sampleAll()
-          : this.sampleBetween(lo, hi, Math.min(sampleSize, between));
+        round === 0 && start.sample
+          ? start.sample
+          : lo === -Infinity && hi === Infinity && sampleSize === this.sampleSize
+            ? this.sampleAll()
+            : this.sampleBetween(lo, hi, Math.min(sampleSize, between));
       const s = sample.length;
       const window = sampleWindow(sample, (kLow - countLo) / between, (kHigh - countLo) / between);
       const { iLow, iHigh, edges } = window;
@@ -535,7 +565,7 @@ class SelectedSlopes implements SlopeSet {
         const band = this.pickInBand(edges, rangeOf(kLow, kHigh), out);
         if (band.outcome === 'done') return;
         if (band.outcome === 'split') {
-          for (let k = kLow; k <= kHigh; k++) this.selectRange(k, k, out);
+          for (let k = kLow; k <= kHigh; k++) this.selectRange(k, k, out, start);
           return;
         }
         if (band.outcome === 'below') {

@@ -297,7 +297,12 @@ function designColumn(design: LinearDesign, j: number): Float64Array {
 
 /** The closed-form line kernel when X is [1, x], whatever design holds it; the design's own operations otherwise. */
 function searchKernel(design: LinearDesign, y: Float64Array): SearchKernel {
-  if (design.p === 2 && designColumn(design, 0).every((v) => v === 1)) return new LineKernel(designColumn(design, 1), y);
+  if (design.p === 2) {
+    const first = designColumn(design, 0);
+    let intercept = true;
+    for (let i = 0; i < first.length; i++) if (first[i] !== 1) intercept = false;
+    if (intercept) return new LineKernel(designColumn(design, 1), y);
+  }
   return new DesignKernel(design, y);
 }
 

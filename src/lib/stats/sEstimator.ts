@@ -183,7 +183,8 @@ class LineKernel implements SearchKernel {
       const r = y[i] - a - b * x[i];
       residuals[i] = r;
       const u = r * k;
-      const v = 1 - Math.min(u * u, 1);
+      const t = 1 - u * u;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0) without a branch: these comparisons are unpredictable
       sum += v * v * v;
     }
     return n - sum;
@@ -202,7 +203,8 @@ class LineKernel implements SearchKernel {
     for (let i = 0; i < n; i++) {
       const r = y[i] - a - b * x[i];
       const u = r * k;
-      const v = 1 - Math.min(u * u, 1);
+      const t = 1 - u * u;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0) without a branch: these comparisons are unpredictable
       const w = v * v;
       const dx = x[i] - shiftX;
       const wdx = w * dx;

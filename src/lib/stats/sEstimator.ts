@@ -50,14 +50,11 @@ function sumRho(residuals: Float64Array, cutoff: number): number {
   let sum = 0;
   for (let i = 0; i < residuals.length; i++) {
     const u = residuals[i] * k;
-    const z = u * u;
-    if (z >= 1) sum += 1;
-    else {
-      const v = 1 - z;
-      sum += 1 - v * v * v;
-    }
+    const t = 1 - u * u;
+    const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0) without a branch: these comparisons are unpredictable
+    sum += v * v * v;
   }
-  return sum;
+  return residuals.length - sum;
 }
 
 /**
@@ -90,14 +87,13 @@ export function mScale(
     for (let i = 0; i < n; i++) {
       const u = residuals[i] * k;
       const z = u * u;
-      if (z >= 1) sum += 1;
-      else {
-        const v = 1 - z;
-        sum += 1 - v * v * v;
-        slope += 6 * z * v * v;
-      }
+      const t = 1 - z;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0), as in sumRho
+      const vv = v * v;
+      sum += vv * v;
+      slope += 6 * z * vv;
     }
-    const excess = sum / df - b;
+    const excess = (n - sum) / df - b;
     if (excess === 0) return scale;
     if (excess > 0) tooSmall = Math.max(tooSmall, scale);
     else tooLarge = Math.min(tooLarge, scale);
@@ -271,8 +267,9 @@ class DesignKernel implements SearchKernel {
     const k = 1 / cutoff;
     for (let i = 0; i < this.n; i++) {
       const u = work[i] * k;
-      const z = u * u;
-      weights[i] = z >= 1 ? 0 : (1 - z) * (1 - z);
+      const t = 1 - u * u;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0), as in sumRho
+      weights[i] = v * v;
     }
     try {
       out.set(this.design.solveWeighted(this.y, weights));

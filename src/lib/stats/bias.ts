@@ -1,5 +1,4 @@
 import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
-import { normalQuantile } from './distributions';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { lineBias } from './lineBias';
@@ -7,7 +6,7 @@ import { createLineDesign, selectKth } from './linear';
 import { irlsOnDesign } from './mEstimator';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
-import { fitPassingBablok } from './passingBablok';
+import { fitPassingBablok, stableOrder } from './passingBablok';
 import type { LineFit, MethodKey } from './types';
 import { validateFinite } from './validate';
 
@@ -231,15 +230,17 @@ function oneStepCorrection(
  * (slopes below −1) and its shifted median (rank (N + 1)/2 + K, or the mean of ranks N/2 + K and N/2 + 1 + K;
  * Passing & Bablok 1983) are weighted counts over the one sorted list, and a = median(y − b·x) over the resample.
  * Slopes are (y_j − y_i)/(x_j − x_i), identical points skipped, slopes of exactly −1 dropped, equal x with different
- * y counted as +∞ — as in fitPassingBablok, which the tests compare it with. O(n²) once, then O(n²) additions and
- * no allocation per resample, instead of a full fit with its intervals and linearity test.
+ * y counted as +∞ — as in fitPassingBablok, which the tests compare it with. O(n²) once, then per resample the
+ * weight below the full data's median slope (slopeScanStart) and a scan from there to the resample's median, with
+ * no allocation, instead of a full fit with its intervals and linearity test.
  */
 function passingBablokRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
   const n = x.length;
   const pairCount = (n * (n - 1)) / 2;
   const slopes = new Float64Array(pairCount);
-  const first = new Int32Array(pairCount);
-  const second = new Int32Array(pairCount);
+  // sample numbers fit 16 bits below SORTED_SLOPES_LIMIT; half the memory traffic of the scan
+  const first = new Uint16Array(pairCount);
+  const second = new Uint16Array(pairCount);
   const excludedFirst: number[] = [];
   const excludedSecond: number[] = [];
   let kept = 0;
@@ -259,11 +260,16 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
       kept++;
     }
   }
-  const order = Int32Array.from({ length: kept }, (_, k) => k).sort((p, q) => slopes[p] - slopes[q] || p - q);
-  const sortedSlopes = Float64Array.from(order, (k) => slopes[k]);
-  // sample numbers fit 16 bits below SORTED_SLOPES_LIMIT; half the memory traffic of the scan
-  const sortedFirst = Uint16Array.from(order, (k) => first[k]);
-  const sortedSecond = Uint16Array.from(order, (k) => second[k]);
+  // ties (equal slopes) in pair order
+  const order = stableOrder(slopes.subarray(0, kept));
+  const sortedSlopes = new Float64Array(kept);
+  const sortedFirst = new Uint16Array(kept);
+  const sortedSecond = new Uint16Array(kept);
+  for (let k = 0; k < kept; k++) {
+    sortedSlopes[k] = slopes[order[k]];
+    sortedFirst[k] = first[order[k]];
+    sortedSecond[k] = second[order[k]];
+  }
   let belowMinusOneEnd = 0;
   while (belowMinusOneEnd < kept && sortedSlopes[belowMinusOneEnd] < -1) belowMinusOneEnd++;
 
@@ -271,23 +277,12 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
   const offsets = new Float64Array(n);
   const droppedFirst = Uint16Array.from(excludedFirst);
   const droppedSecond = Uint16Array.from(excludedSecond);
-  const band = slopeBandStart(x, y, sortedSlopes, sortedFirst, sortedSecond, belowMinusOneEnd, excludedFirst, excludedSecond);
-  /**
-   * Mean of the slopes at 1-based weighted ranks `low` ≤ `high`: scanning on from the band start when the weight
-   * below it is known to be short of `low`, otherwise from the slopes below −1 (weight `shift`).
-   */
-  const meanAtRanks = (low: number, high: number, shift: number) => {
-    let cumulative = shift;
-    let k = belowMinusOneEnd;
-    if (band) {
-      const below = band.weightBelow(counts);
-      if (below < low) {
-        cumulative = below;
-        k = band.position;
-      }
-    }
-    return weightedMeanAtRanks(sortedSlopes, sortedFirst, sortedSecond, counts, k, cumulative, low, high);
-  };
+  const scanStart = slopeScanStart(x, y, sortedSlopes, sortedFirst, sortedSecond, belowMinusOneEnd, excludedFirst, excludedSecond);
+  /** Mean of the slopes at 1-based weighted ranks `low` ≤ `high`, the slopes below −1 weighing `shift`. */
+  const meanAtRanks = (low: number, high: number, shift: number) =>
+    scanStart
+      ? weightedMeanAtRanks(sortedSlopes, sortedFirst, sortedSecond, counts, scanStart.position, scanStart.weightBelow(counts), low, high)
+      : weightedMeanAtRanks(sortedSlopes, sortedFirst, sortedSecond, counts, belowMinusOneEnd, shift, low, high);
   return (indices) => {
     const size = indices.length;
     counts.fill(0);
@@ -318,9 +313,10 @@ function pairWeight(first: Uint16Array, second: Uint16Array, counts: Int32Array,
 }
 
 /**
- * Scans the sorted slopes from position `start` (the weight of the slopes before it being `cumulative`), each slope
- * weighted c_i·c_j, to the slopes at 1-based weighted ranks `low` ≤ `high`, and returns their mean (NaN when the
- * ranks lie beyond the last slope). A function of its own so that the arrays are arguments, not captured variables.
+ * The mean of the sorted slopes at 1-based weighted ranks `low` ≤ `high`, each slope weighted c_i·c_j (NaN when the
+ * ranks lie beyond the last slope), scanning from position `start`, before which the slopes weigh `weightBefore`:
+ * down while that weight reaches `low` (the weight before position 0 is 0 < low), then up to the ranks.
+ * A function of its own so that the arrays are arguments, not captured variables.
  */
 function weightedMeanAtRanks(
   sortedSlopes: Float64Array,
@@ -328,13 +324,17 @@ function weightedMeanAtRanks(
   sortedSecond: Uint16Array,
   counts: Int32Array,
   start: number,
-  cumulative: number,
+  weightBefore: number,
   low: number,
   high: number,
 ): number {
   const kept = sortedSlopes.length;
   let k = start;
-  let weight = cumulative;
+  let weight = weightBefore;
+  while (weight >= low) {
+    k--;
+    weight -= counts[sortedFirst[k]] * counts[sortedSecond[k]];
+  }
   while (k < kept) {
     weight += counts[sortedFirst[k]] * counts[sortedSecond[k]];
     if (weight >= low) break;
@@ -349,16 +349,16 @@ function weightedMeanAtRanks(
 }
 
 /**
- * A start for the weighted slope scan well below where resample medians fall: a sorted position p0 just below the
- * full data's lower 99 % Passing–Bablok bound (rank round((N − C)/2) + K with z = 2.576), at the widest gap
- * between neighbouring slopes there, and t halfway across that gap, so that the kept pairs before p0 are exactly
- * those with slope < t and no pair's slope lies close to t. For a pair in x order
- * (ties by key), slope < t ⇔ the keys y − t·x are inverted, so the resample weight Σ c_i·c_j of the pairs before p0
- * is a weighted inversion count, O(n log n) with a Fenwick tree, minus the dropped −1 slopes when −1 < t. Floating
- * point could make the computed slopes and keys disagree on some pair, so every pair is checked once here; on any
- * disagreement (or no gain) there is no band and the scan starts from the beginning, so results never change.
+ * Where the weighted slope scan starts: a sorted position p0 near the full data's shifted median slope (rank
+ * (N + 1)/2 + K), around which resample medians fall, at the widest gap between neighbouring slopes within n/2
+ * positions of it, and t halfway across that gap, so that the kept pairs before p0 are exactly those with slope < t
+ * and no pair's slope lies close to t. For a pair in x order (ties by key), slope < t ⇔ the keys y − t·x are
+ * inverted, so the resample weight Σ c_i·c_j of the pairs before p0 is a weighted inversion count, O(n log n) with a
+ * Fenwick tree, minus the dropped −1 slopes when −1 < t. Floating point could make the computed slopes and keys
+ * disagree on some pair, so every pair is checked once here; on any disagreement there is no start and the scan
+ * runs from the slopes below −1, so results never change.
  */
-function slopeBandStart(
+function slopeScanStart(
   x: readonly number[],
   y: readonly number[],
   sortedSlopes: Float64Array,
@@ -370,12 +370,13 @@ function slopeBandStart(
 ): { position: number; weightBelow: (counts: Int32Array) => number } | null {
   const n = x.length;
   const kept = sortedSlopes.length;
-  const spread = normalQuantile(0.995) * Math.sqrt((n * (n - 1) * (2 * n + 5)) / 18);
-  const target = Math.round((kept - spread) / 2) + belowMinusOneEnd - 1;
-  if (target <= belowMinusOneEnd + n || target >= kept) return null;
-  // the widest gap between neighbouring slopes just below the target, so that no pair's slope is close to t
-  let position = target;
-  for (let k = target; k > Math.max(belowMinusOneEnd + 1, target - n); k--) {
+  const median = belowMinusOneEnd + ((kept - 1) >> 1);
+  const from = Math.max(belowMinusOneEnd + 1, median - (n >> 1));
+  const to = Math.min(kept - 1, median + (n >> 1));
+  if (from > to) return null;
+  // the widest gap between neighbouring slopes near the median, so that no pair's slope is close to t
+  let position = from;
+  for (let k = from + 1; k <= to; k++) {
     if (sortedSlopes[k] - sortedSlopes[k - 1] > sortedSlopes[position] - sortedSlopes[position - 1]) position = k;
   }
   const t = (sortedSlopes[position - 1] + sortedSlopes[position]) / 2;

@@ -143,6 +143,19 @@ interface Points {
   y: Float64Array;
 }
 
+/**
+ * The indices of `keys` in stable ascending order (equal keys, −0 and +0 among them, keep their index order), by
+ * the merge sort the slope search uses: O(n log n) without a comparison callback.
+ *
+ * @example
+ * stableOrder(Float64Array.of(3, 1, 3, 2)); // Int32Array [1, 3, 0, 2]
+ */
+export function stableOrder(keys: Float64Array): Int32Array {
+  const order = Int32Array.from({ length: keys.length }, (_, i) => i);
+  mergeSort(order, keys, mergeScratch(keys.length), null, null);
+  return order;
+}
+
 function sortPoints(x: readonly number[], y: readonly number[]): Points {
   const n = x.length;
   const order = Int32Array.from({ length: n }, (_, i) => i);

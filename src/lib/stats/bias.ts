@@ -419,29 +419,30 @@ function slopeScanStart(
   }
 
   const xOrder = Int32Array.from(order);
-  const tree = new Float64Array(ranks + 1);
+  // the 1-based key rank of each point in x order, for the Fenwick tree
+  const treeIndex = Int32Array.from(order, (point) => rank[point] + 1);
+  const tree = new Int32Array(ranks + 1);
   const dropped = Int32Array.from(minusOneBelow);
-  return { position, weightBelow: (counts) => weightedInversions(xOrder, rank, tree, dropped, counts) };
+  return { position, weightBelow: (counts) => weightedInversions(xOrder, treeIndex, tree, dropped, counts) };
 }
 
 /**
  * Σ c_i·c_j over the pairs whose keys are inverted in x order (a Fenwick tree over the key ranks, O(n log n)), minus
  * the weights of the `dropped` pairs (flat list of index pairs). A function of its own, with the arrays as arguments.
  */
-function weightedInversions(xOrder: Int32Array, rank: Int32Array, tree: Float64Array, dropped: Int32Array, counts: Int32Array): number {
+function weightedInversions(xOrder: Int32Array, treeIndex: Int32Array, tree: Int32Array, dropped: Int32Array, counts: Int32Array): number {
   const ranks = tree.length - 1;
   tree.fill(0);
   let seen = 0;
   let weight = 0;
   for (let p = 0; p < xOrder.length; p++) {
-    const point = xOrder[p];
-    const c = counts[point];
+    const c = counts[xOrder[p]];
     if (c === 0) continue;
     // previous points with a larger key: all seen so far minus those with rank ≤ this rank
     let atMost = 0;
-    for (let r = rank[point] + 1; r > 0; r -= r & -r) atMost += tree[r];
+    for (let r = treeIndex[p]; r > 0; r -= r & -r) atMost += tree[r];
     weight += c * (seen - atMost);
-    for (let r = rank[point] + 1; r <= ranks; r += r & -r) tree[r] += c;
+    for (let r = treeIndex[p]; r <= ranks; r += r & -r) tree[r] += c;
     seen += c;
   }
   for (let e = 0; e < dropped.length; e += 2) weight -= counts[dropped[e]] * counts[dropped[e + 1]];

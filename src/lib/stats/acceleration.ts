@@ -1,8 +1,8 @@
 /**
- * Relative step size ‖G(β) − β‖/‖β‖ below which IRLS accepts accelerated iterates. Far from the solution the plain
- * steps are kept, so that acceleration cannot carry a fit from the basin its start lies in to another fixed point
- * (redescending ρ, or the MAD re-estimated every iteration, can have several); near it the iteration is a
- * contraction and the extrapolation only shortens the way to the same point.
+ * Relative step size ‖G(β) − β‖/‖β‖ below which iterateToFixedPoint (the S refinement's I-steps) accepts accelerated
+ * iterates. Far from the solution the plain steps are kept, so that acceleration cannot carry a fit from the basin its
+ * start lies in to another fixed point (a redescending ρ can have several); near it the iteration is a contraction
+ * and the extrapolation only shortens the way to the same point.
  */
 export const ACCELERATE_BELOW = 1e-4;
 
@@ -124,8 +124,9 @@ export interface FixedPointResult {
 /**
  * Iterates β ← G(β) from `start` until change(β, G(β)) ≤ tolerance or `maxIterations` evaluations of G, with
  * Anderson acceleration (depth 2) once the change is below ACCELERATE_BELOW unless `accelerate` is false; an
- * accelerated iterate that lengthens the next step is dropped for the plain step. Returns the last G(β), as plain
- * IRLS reports the fit of its last step (Walker & Ni, SIAM J Numer Anal 2011, for the safeguarded scheme).
+ * accelerated iterate that lengthens the next step is dropped for the plain step. Returns the last G(β), the fit of
+ * the last step (Walker & Ni, SIAM J Numer Anal 2011, for the safeguarded scheme). IRLS itself takes Newton updates
+ * instead (irlsOnDesign), which its M-step gives at no extra pass.
  *
  * @example
  * iterateToFixedPoint((b) => Float64Array.of(Math.cos(b[0])), (u, v) => Math.abs(v[0] - u[0]), Float64Array.of(1), 1e-12, 100).beta[0]; // 0.739085…

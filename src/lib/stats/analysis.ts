@@ -38,7 +38,7 @@ import type { LineFit, MethodKey } from './types';
 import { validateFinite, validatePairs, validatePositive } from './validate';
 
 /** Version of the engine, stored with every analysis run. */
-export const ENGINE_VERSION = '0.2.0';
+export const ENGINE_VERSION = '0.3.0';
 
 /** Every estimator key, in the order the analysis reports them. */
 export const ALL_METHODS: readonly MethodKey[] = ['ols', 'deming', 'weightedDeming', 'passingBablok', 'huber', 'tukey', 'hampel', 'mm', 'lad'];

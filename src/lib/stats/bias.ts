@@ -2,7 +2,7 @@ import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { lineBias } from './lineBias';
-import { createLineDesign, selectKth } from './linear';
+import { createLineDesign, mStepWork, selectKth } from './linear';
 import { irlsOnDesign } from './mEstimator';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
@@ -116,8 +116,9 @@ const REFIT_MAX_ITERATIONS = 200;
 
 /**
  * Warm-started refit for the bootstrap of a robust fit, by the full fit's own IRLS loop (irlsOnDesign: u = r/s,
- * weights w(u), weighted least squares, accelerated near the end) stopped at a relative change ‖Δβ‖/‖β‖ of 1e-7,
- * returning only the coefficients, with the work buffers allocated once per bootstrap rather than once per resample.
+ * weights w(u), weighted least squares, Newton updates once the steps are small) stopped at a relative change
+ * ‖Δβ‖/‖β‖ of 1e-7, returning only the coefficients, with the work buffers allocated once per bootstrap rather than
+ * once per resample.
  * - Huber, Tukey, Hampel: MAD scale re-estimated every iteration, started from the full-data estimate instead of
  *   from OLS or a fresh S-estimate per resample.
  * - MM: the full-data S-scale is kept fixed and the bisquare M-step starts from the full-data MM coefficients.
@@ -125,11 +126,6 @@ const REFIT_MAX_ITERATIONS = 200;
  *   bootstrap (Salibian-Barrera & Zamar, Ann Stat 2002): each resample's estimate is reached from the full-data
  *   solution instead of being recomputed from scratch, which is far cheaper and stays close while a resample does
  *   not carry many more outliers than the data.
- * For Huber the first IRLS step of each resample is stretched by the linear correction of that bootstrap,
- * M = (X'Ψ′X)⁻¹(X'WX) at the full-data estimate and scale (Salibian-Barrera & Zamar 2002, fixed scale), which
- * lands close to the resample's solution; IRLS then iterates to the same stopping rule, and as Huber's solution
- * is unique the correction only saves iterations. Redescending fits (Tukey, Hampel, MM) are not corrected: a
- * stretched step could carry them to another local minimum than the plain warm start reaches.
  */
 function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
   let norm: RobustNorm;
@@ -146,81 +142,21 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     throw new StatsInputError(`the ${fit.method} fit takes its bias CI in closed form, not from the bootstrap`, { field: 'fit.method' });
   }
   const n = x.length;
-  const centre = x.reduce((sum, v) => sum + v, 0) / n;
   const full = createLineDesign(x);
   const ys = new Float64Array(n);
-  const residuals = new Float64Array(n);
-  const scratch = new Float64Array(n);
-  const weights = new Float64Array(n);
-  // only for convex ρ (Huber), whose solution is unique: a redescending fit could be sent to another local minimum
-  const correction = norm.convex
-    ? oneStepCorrection(x, y, centre, fit.intercept + fit.slope * centre, fit.slope, fit.scale ?? 0, norm)
-    : null;
-  /** The first step stretched by the correction, which acts on (intercept at the centre, slope). */
-  const corrected = correction
-    ? (from: Float64Array, to: Float64Array) => {
-        const stepA = to[0] + to[1] * centre - (from[0] + from[1] * centre);
-        const stepB = to[1] - from[1];
-        const slope = from[1] + correction[2] * stepA + correction[3] * stepB;
-        const atCentre = from[0] + from[1] * centre + correction[0] * stepA + correction[1] * stepB;
-        return Float64Array.of(atCentre - slope * centre, slope);
-      }
-    : undefined;
+  const work = mStepWork(n);
   return (indices) => {
     const size = indices.length;
-    const view = (buffer: Float64Array) => (size === n ? buffer : buffer.subarray(0, size));
-    const ry = view(ys);
+    const ry = size === n ? ys : ys.subarray(0, size);
     for (let i = 0; i < size; i++) ry[i] = y[indices[i]];
     const { beta } = irlsOnDesign(full.select(indices), ry, norm, Float64Array.of(fit.intercept, fit.slope), {
       fixedScale,
-      scaleHint: fit.scale,
       tolerance: REFIT_TOLERANCE,
       maxIterations: REFIT_MAX_ITERATIONS,
-      buffers: { residuals: view(residuals), weights: view(weights), scratch: view(scratch) },
-      adjustFirstStep: corrected,
+      buffers: work,
     });
     return [beta[0], beta[1]];
   };
-}
-
-/**
- * The 2 × 2 one-step correction M = (X'Ψ′X)⁻¹(X'WX) of the fast and robust bootstrap (Salibian-Barrera & Zamar,
- * Ann Stat 2002; here with the scale held fixed) at the full-data line (a at `centre`, b) and scale, in the centred
- * coordinates [1, x − centre], row-major; null when X'Ψ′X is not positive definite (then no correction is used).
- */
-function oneStepCorrection(
-  x: readonly number[],
-  y: readonly number[],
-  centre: number,
-  a: number,
-  b: number,
-  scale: number,
-  norm: RobustNorm,
-): [number, number, number, number] | null {
-  if (!(scale > 0)) return null;
-  let w0 = 0;
-  let w1 = 0;
-  let w2 = 0;
-  let p0 = 0;
-  let p1 = 0;
-  let p2 = 0;
-  for (let i = 0; i < x.length; i++) {
-    const xc = x[i] - centre;
-    const u = (y[i] - a - b * xc) / scale;
-    const w = norm.weight(u);
-    const d = norm.psiDeriv(u);
-    w0 += w;
-    w1 += w * xc;
-    w2 += w * xc * xc;
-    p0 += d;
-    p1 += d * xc;
-    p2 += d * xc * xc;
-  }
-  const det = p0 * p2 - p1 * p1;
-  if (!(p0 > 0 && det > 1e-12 * p0 * p2)) return null;
-  // (X'Ψ′X)⁻¹ = [[p2, −p1], [−p1, p0]] / det, times X'WX = [[w0, w1], [w1, w2]]
-  const m = [(p2 * w0 - p1 * w1) / det, (p2 * w1 - p1 * w2) / det, (p0 * w1 - p1 * w0) / det, (p0 * w2 - p1 * w1) / det] as const;
-  return m.every(Number.isFinite) ? [m[0], m[1], m[2], m[3]] : null;
 }
 
 /**
@@ -490,7 +426,15 @@ function ladRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
   };
 }
 
-function refitFor(fit: LineFit, x: readonly number[], y: readonly number[], tuning: BiasBootstrapOptions['tuning']): IndexedRefit {
+/**
+ * The refit that bootstrapBiasIntervals applies to each resample of a Passing–Bablok, LAD or robust fit: the exact
+ * Passing–Bablok or LAD line of the resample, or the robust fit's IRLS warm-started from the full-data estimate
+ * (see robustRefit). Returns [intercept, slope] of the samples at the given indices.
+ *
+ * @example
+ * bootstrapRefit(fitRobustLine(x, y, 'huber'), x, y)(Int32Array.of(0, 0, 2, 3, 4)); // [a, b] of that resample
+ */
+export function bootstrapRefit(fit: LineFit, x: readonly number[], y: readonly number[], tuning?: BiasBootstrapOptions['tuning']): IndexedRefit {
   if (fit.method === 'passingBablok') return x.length <= SORTED_SLOPES_LIMIT ? passingBablokRefit(x, y) : passingBablokFullRefit(x, y);
   if (fit.method === 'lad') return ladRefit(x, y);
   return robustRefit(fit, x, y, tuning);
@@ -516,7 +460,7 @@ export function bootstrapBiasIntervals(
     throw new StatsInputError(`the fit was made on ${fit.n} samples but ${x.length} x and ${y.length} y values were given`, { field: 'x' });
   }
   levels.forEach(validateLevel);
-  const refit = refitFor(fit, x, y, options.tuning);
+  const refit = bootstrapRefit(fit, x, y, options.tuning);
   const statistic = (indices: Int32Array) => {
     const [a, b] = refit(indices);
     return levels.map((level) => lineBias(a, b, level).bias);

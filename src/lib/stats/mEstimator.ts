@@ -1,7 +1,7 @@
-import { iterateToFixedPoint, relativeChange } from './acceleration';
+import { relativeChange } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, toArray, type LinearDesign } from './linear';
+import { createDesign, createLineDesign, mStepWork, toArray, type LinearDesign, type MStepWork } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
 import { checkedSEstimate, sEstimateOnDesign, type SEstimate } from './sEstimator';
@@ -26,8 +26,8 @@ export interface MEstimatorOptions {
   /** Keep the scale fixed at this value instead of re-estimating the MAD at every iteration (MM). */
   fixedScale?: number;
   /**
-   * Anderson acceleration once the steps are small (default true; see acceleration.ts): the same fixed point in
-   * fewer iterations. false reproduces plain IRLS iterate by iterate.
+   * Newton updates once the steps are small (default true; see irlsOnDesign): the same fixed point in fewer
+   * iterations. false reproduces plain IRLS iterate by iterate.
    */
   accelerate?: boolean;
 }
@@ -123,61 +123,113 @@ function startingPoint(
   });
 }
 
-/** Where IRLS stopped, with the final fit's residuals and their weights at the final scale. */
+/** Where IRLS stopped. */
 export interface IrlsResult {
+  /** The IRLS update of the last point evaluated: the fit of the last weighted least-squares step. */
   beta: Float64Array;
   /** The scale of the last step (the MAD of the residuals it started from, or the fixed scale). */
   scale: number;
   iterations: number;
   converged: boolean;
-  residuals: Float64Array;
-  weights: Float64Array;
 }
 
-/** Options of irlsOnDesign; work buffers may be lent so that repeated fits (bootstrap resamples) allocate nothing. */
+/** Options of irlsOnDesign; work space may be lent so that repeated fits (bootstrap resamples) allocate nothing. */
 export interface IrlsOptions {
   fixedScale?: number;
-  /** A scale near the first MAD, which only speeds its median up (the result is the same). */
-  scaleHint?: number;
   tolerance: number;
   maxIterations: number;
+  /** Newton updates once the steps are small (default true); false gives plain IRLS, iterate by iterate. */
   accelerate?: boolean;
-  buffers?: { residuals: Float64Array; weights: Float64Array; scratch: Float64Array };
-  /** Replaces the first step's result (a better start, e.g. a one-step correction); later steps are plain IRLS. */
-  adjustFirstStep?: (from: Float64Array, to: Float64Array) => Float64Array;
+  buffers?: MStepWork;
 }
 
 /**
- * The IRLS iteration itself (Holland & Welsch, Commun Stat 1977): from β, residuals r = y − Xβ, the scale
+ * Relative IRLS step ‖Δβ‖/‖β‖ at or below which irlsOnDesign tries Newton updates. Far from the solution only plain
+ * steps are taken, so that a long Newton step cannot carry a fit from the basin its start lies in to another solution
+ * (redescending ρ, or the MAD re-estimated every iteration, can have several); near it both lead to the same point.
+ */
+export const NEWTON_BELOW = 1e-2;
+
+/**
+ * The IRLS iteration (Holland & Welsch, Commun Stat 1977): from β, residuals r = y − Xβ, the scale
  * s = median(|r|)/0.6745 unless fixed, weights w(r/s), weighted least squares; until ‖Δβ‖/‖β‖ ≤ tolerance or
- * maxIterations, accelerated near the end (acceleration.ts). Shared by every M-estimate and by the bootstrap refits.
+ * maxIterations steps, reporting the last weighted least-squares fit and its scale (as MASS::rlm). Shared by every
+ * M-estimate and by the bootstrap refits.
+ * Once a step is at most NEWTON_BELOW, the next β is the Newton update of the same estimating equations
+ * Σψ(rᵢ/s)xᵢ = 0, s = MAD(r(β)) (LinearDesign.mStep; Dennis & Schnabel, Numerical Methods for Unconstrained
+ * Optimization, 1983, ch. 5), which converges quadratically instead of linearly; mStep offers it only where plain
+ * IRLS contracts. A Newton step more than NEWTON_STRETCH times the plain one is not taken, and a Newton point whose own
+ * IRLS step is not at most NEWTON_GAIN times the last one (or cannot be taken) is dropped for the plain update, after
+ * which Newton waits until the plain steps are ten times shorter. The stopping rule is always measured on a plain IRLS
+ * step, so the result is a fixed point of plain IRLS, and the one plain IRLS reaches from the same start.
  *
  * @example
  * irlsOnDesign(createLineDesign(x), new Float64Array(y), huberNorm(), Float64Array.of(0, 1), { tolerance: 1e-10, maxIterations: 200 }).beta;
  */
 export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: RobustNorm, start: Float64Array, options: IrlsOptions): IrlsResult {
-  const { fixedScale, tolerance, maxIterations, accelerate = true, adjustFirstStep } = options;
-  const { n } = design;
-  const residuals = options.buffers?.residuals ?? new Float64Array(n);
-  const weights = options.buffers?.weights ?? new Float64Array(n);
-  const scratch = options.buffers?.scratch ?? new Float64Array(n);
-  let scale = fixedScale ?? options.scaleHint ?? 0;
-  let first = adjustFirstStep !== undefined;
-  /** One IRLS step from β: residuals, the MAD scale (unless fixed), weights, weighted least squares. */
-  const irlsStep = (beta: Float64Array): Float64Array => {
-    if (fixedScale === undefined) scale = design.residualsAndMadScale(y, beta, residuals, scratch, scale);
-    else design.residuals(y, beta, residuals);
-    norm.weights(residuals, scale, weights);
-    const next = design.solveWeighted(y, weights);
-    if (!first) return next;
-    first = false;
-    return adjustFirstStep!(beta, next);
+  const { tolerance, maxIterations } = options;
+  const { n, p } = design;
+  const work = options.buffers ?? mStepWork(n);
+  const scale = { fixed: options.fixedScale, previous: 0 };
+  const irls = new Float64Array(p);
+  const newton = new Float64Array(p);
+  const accelerate = options.accelerate ?? true;
+  let newtonBelow = accelerate ? NEWTON_BELOW : 0;
+  /** The relative IRLS step from β; the updates are left in `irls` and `newton`, the scale in scale.previous. */
+  const evaluate = (beta: Float64Array) => {
+    scale.previous = design.mStep(y, beta, norm, scale, work, irls, accelerate ? newton : null);
+    return relativeChange(beta, irls);
   };
-  const { beta, iterations, converged } = iterateToFixedPoint(irlsStep, relativeChange, start, tolerance, maxIterations, accelerate);
-  // the weights of the final fit's own residuals
-  design.residuals(y, beta, residuals);
-  norm.weights(residuals, scale, weights);
-  return { beta, scale, iterations, converged, residuals, weights };
+  let beta = start;
+  let size = evaluate(beta);
+  let iterations = 1;
+  while (size > tolerance && iterations < maxIterations) {
+    const tryNewton = size <= newtonBelow && newtonStepWithin(beta, newton, NEWTON_STRETCH * size);
+    const plain = irls.slice();
+    const candidate = tryNewton ? newton.slice() : plain;
+    const lastScale = scale.previous;
+    const candidateSize = tryNewton ? sizeOrInfinity(evaluate, candidate) : evaluate(candidate);
+    iterations++;
+    if (tryNewton && candidateSize > NEWTON_GAIN * size && iterations < maxIterations) {
+      // not in Newton's region yet: the plain update instead, and no Newton again until the steps are 10× shorter
+      newtonBelow = size / 10;
+      scale.previous = lastScale;
+      beta = plain;
+      size = evaluate(beta);
+      iterations++;
+    } else {
+      beta = candidate;
+      size = candidateSize;
+    }
+  }
+  return { beta: irls.slice(), scale: scale.previous, iterations, converged: size <= tolerance };
+}
+
+/**
+ * How much longer than the plain step a Newton step may be: near a solution the two differ by the plain iteration's
+ * rate of convergence, so a far longer Newton step means the linearisation does not hold there.
+ */
+const NEWTON_STRETCH = 10;
+
+/**
+ * How much shorter than the last plain step the plain step from a Newton point must be for the point to be kept: in its
+ * region Newton gains far more than that, so a smaller gain means it is heading elsewhere.
+ */
+const NEWTON_GAIN = 0.5;
+
+/** Whether the Newton update is finite and its relative change from β is at most `limit`. */
+function newtonStepWithin(beta: Float64Array, newton: Float64Array, limit: number): boolean {
+  return newton.every(Number.isFinite) && relativeChange(beta, newton) <= limit;
+}
+
+/** The IRLS step from a Newton point, or Infinity when none can be taken there (e.g. every weight on one x). */
+function sizeOrInfinity(evaluate: (at: Float64Array) => number, at: Float64Array): number {
+  try {
+    return evaluate(at);
+  } catch (error) {
+    if (error instanceof StatsInputError) return Infinity;
+    throw error;
+  }
 }
 
 /**
@@ -205,12 +257,12 @@ export function mEstimateOnDesign(
 
   const { n, p } = design;
   const start = startingPoint(design, y, norm, opts.start, seed, opts.sEstimate);
-  const { beta, scale, iterations, converged, residuals, weights } = irlsOnDesign(design, y, norm, start.beta, {
-    fixedScale,
-    tolerance,
-    maxIterations,
-    accelerate,
-  });
+  const { beta, scale, iterations, converged } = irlsOnDesign(design, y, norm, start.beta, { fixedScale, tolerance, maxIterations, accelerate });
+  // the final fit's own residuals and their weights at the final scale
+  const residuals = new Float64Array(n);
+  const weights = new Float64Array(n);
+  design.residuals(y, beta, residuals);
+  norm.weights(residuals, scale, weights);
 
   const covariance = sandwichCovariance(design, residuals, scale, norm);
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));

@@ -16,13 +16,56 @@ export interface RobustNorm {
   weight(u: number): number;
   /** w(rᵢ/s) for every residual, into `out`: IRLS's inner loop, so that it runs one family's code only. */
   weights(residuals: Float64Array, scale: number, out: Float64Array): void;
+  /**
+   * The sums of a straight line's M-step at (a, b) with scale s, in one pass (LinearDesign.mStep): with residuals
+   * r = y − a − b·x, d = x − centre, w = w(r/s) and ψ′ = ψ′(r/s), Σw, Σw·d, Σw·d², Σw·r, Σw·r·d, Σψ′, Σψ′·d, Σψ′·d²,
+   * Σψ′·r, Σψ′·r·d, into work.sums (layout LineStep).
+   */
+  lineStep(work: LineStepWork, a: number, b: number, scale: number): void;
+}
+
+/** What RobustNorm.lineStep reads (x, its centre, y) and writes (`sums`). */
+export interface LineStepWork {
+  xs: Float64Array;
+  centre: number;
+  y: Float64Array;
+  sums: Float64Array;
+}
+
+/** Positions in LineStepWork.sums: the cross-products of [1, x − centre] and of the residuals with w and with ψ′. */
+export const LineStep = { w: 0, wd: 1, wdd: 2, wr: 3, wrd: 4, dpsi: 5, dpsiD: 6, dpsiDD: 7, dpsiR: 8, dpsiRD: 9, size: 10 } as const;
+
+/** Stores the sums of a line step (each family's lineStep ends with this). */
+function storeLineStep(
+  sums: Float64Array,
+  w: number,
+  wd: number,
+  wdd: number,
+  wr: number,
+  wrd: number,
+  dpsi: number,
+  dpsiD: number,
+  dpsiDD: number,
+  dpsiR: number,
+  dpsiRD: number,
+): void {
+  sums[0] = w;
+  sums[1] = wd;
+  sums[2] = wdd;
+  sums[3] = wr;
+  sums[4] = wrd;
+  sums[5] = dpsi;
+  sums[6] = dpsiD;
+  sums[7] = dpsiDD;
+  sums[8] = dpsiR;
+  sums[9] = dpsiRD;
 }
 
 // Each family is a class so that all its instances share one set of methods: IRLS loops call them
 // per sample, and shared methods keep those calls cheap (inlined) whatever the tuning constants.
-// Each class has its own weights loop on purpose: a loop shared through a base class would see every family at one
-// call site, and V8 stops inlining such (megamorphic) calls. They are written out with the constants on the scale of
-// r; norms.test.ts checks them against weight(u) for every family.
+// Each class has its own weights and line-step loops on purpose: a loop shared through a base class would see every
+// family at one call site, and V8 stops inlining such (megamorphic) calls. They are written out with the constants on
+// the scale of r; norms.test.ts checks them against weight(u) and psiDeriv(u) for every family.
 
 class LeastSquaresNorm implements RobustNorm {
   readonly name = 'leastSquares' as const;
@@ -43,6 +86,23 @@ class LeastSquaresNorm implements RobustNorm {
   weights(residuals: Float64Array, scale: number, out: Float64Array): void {
     const k = 1 / scale;
     for (let i = 0; i < residuals.length; i++) out[i] = this.weight(residuals[i] * k);
+  }
+  lineStep(work: LineStepWork, a: number, b: number, _scale: number): void {
+    const { xs, centre, y } = work;
+    let sd = 0;
+    let sdd = 0;
+    let sr = 0;
+    let srd = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      sd += d;
+      sdd += d * d;
+      sr += r;
+      srd += r * d;
+    }
+    const n = xs.length;
+    storeLineStep(work.sums, n, sd, sdd, sr, srd, n, sd, sdd, sr, srd);
   }
 }
 
@@ -73,6 +133,36 @@ class HuberNorm implements RobustNorm {
       const a = Math.abs(residuals[i]);
       out[i] = a <= limit ? 1 : limit / a;
     }
+  }
+  lineStep(work: LineStepWork, a: number, b: number, scale: number): void {
+    const { xs, centre, y } = work;
+    const limit = this.t * scale;
+    let sw = 0, swd = 0, swdd = 0, swr = 0, swrd = 0;
+    let sp = 0, spd = 0, spdd = 0, spr = 0, sprd = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const size = Math.abs(r);
+      if (size <= limit) {
+        // w = ψ′ = 1 inside t
+        sp += 1;
+        spd += d;
+        spdd += d * d;
+        spr += r;
+        sprd += r * d;
+      } else {
+        // outside t: ψ′ = 0 and w·r = ±t·s
+        const w = limit / size;
+        const wd = w * d;
+        const wr = r > 0 ? limit : -limit;
+        sw += w;
+        swd += wd;
+        swdd += wd * d;
+        swr += wr;
+        swrd += wr * d;
+      }
+    }
+    storeLineStep(work.sums, sw + sp, swd + spd, swdd + spdd, swr + spr, swrd + sprd, sp, spd, spdd, spr, sprd);
   }
 }
 
@@ -111,6 +201,34 @@ class TukeyBisquareNorm implements RobustNorm {
       const v = 1 - z * z;
       out[i] = v > 0 ? v * v : 0;
     }
+  }
+  lineStep(work: LineStepWork, a: number, b: number, scale: number): void {
+    const { xs, centre, y } = work;
+    const q = 1 / (this.c * scale);
+    let sw = 0, swd = 0, swdd = 0, swr = 0, swrd = 0;
+    let sp = 0, spd = 0, spdd = 0, spr = 0, sprd = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const z = r * q;
+      const z2 = z * z;
+      const v = z2 < 1 ? 1 - z2 : 0; // w = v², ψ′ = v·(1 − 5z²), both 0 beyond c
+      const w = v * v;
+      const p = v * (1 - 5 * z2);
+      const wd = w * d;
+      const pd = p * d;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      swr += w * r;
+      swrd += wd * r;
+      sp += p;
+      spd += pd;
+      spdd += pd * d;
+      spr += p * r;
+      sprd += pd * r;
+    }
+    storeLineStep(work.sums, sw, swd, swdd, swr, swrd, sp, spd, spdd, spr, sprd);
   }
 }
 
@@ -170,6 +288,36 @@ class HampelNorm implements RobustNorm {
       const z = Math.abs(residuals[i]);
       out[i] = z <= a ? 1 : z <= b ? a / z : z <= c ? (slope * (c - z)) / z : 0;
     }
+  }
+  lineStep(work: LineStepWork, a: number, b: number, scale: number): void {
+    const { xs, centre, y } = work;
+    const ra = this.a * scale;
+    const rb = this.b * scale;
+    const rc = this.c * scale;
+    const { slope } = this;
+    let sw = 0, swd = 0, swdd = 0, swr = 0, swrd = 0;
+    let sp = 0, spd = 0, spdd = 0, spr = 0, sprd = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const size = Math.abs(r);
+      // w: 1 up to a, a/|r| up to b, slope·(c − |r|)/|r| up to c, 0 beyond; ψ′: 1, 0, −slope, 0
+      const w = size <= ra ? 1 : size <= rb ? ra / size : size <= rc ? (slope * (rc - size)) / size : 0;
+      const p = size <= ra ? 1 : size > rb && size <= rc ? -slope : 0;
+      const wd = w * d;
+      const pd = p * d;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      swr += w * r;
+      swrd += wd * r;
+      sp += p;
+      spd += pd;
+      spdd += pd * d;
+      spr += p * r;
+      sprd += pd * r;
+    }
+    storeLineStep(work.sums, sw, swd, swdd, swr, swrd, sp, spd, spdd, spr, sprd);
   }
 }
 

@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
-import { createDesign, createLineDesign, lineDesignMatrix, madScale, medianAbs, selectKth } from '../../../../src/lib/stats/linear';
+import { createDesign, createLineDesign, lineDesignMatrix, madScale, medianAbs, mStepWork, selectKth, type LinearDesign } from '../../../../src/lib/stats/linear';
+import { hampelNorm, huberNorm, tukeyBisquareNorm, type RobustNorm } from '../../../../src/lib/stats/norms';
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { seededRandom } from '../../../../src/lib/stats/random';
 import { datasets } from './robustFixtures';
 
@@ -71,26 +73,80 @@ describe('line design against the general QR design', () => {
   });
 });
 
-describe('residualsAndMadScale', () => {
-  // built for this test: the one-pass form must agree with the two separate steps, whatever the hint
-  const x = Array.from({ length: 40 }, (_, i) => i + 1);
-  const y = Float64Array.from(x, (v) => 2 + 0.5 * v + Math.sin(3 * v));
-  const beta = Float64Array.of(1.8, 0.52);
-  for (const [name, design] of [
-    ['line', createLineDesign(x)],
-    ['general', createDesign(x.map((v) => [1, v, v * v]))],
-  ] as const) {
-    it(`${name} design: the residuals and the MAD scale as residuals() and madScale() give them, with any hint`, () => {
-      const coefficients = design.p === 2 ? beta : Float64Array.of(1.8, 0.52, 0);
-      const expected = new Float64Array(40);
-      design.residuals(y, coefficients, expected);
-      const scale = madScale(expected, new Float64Array(40));
-      // no hint, a close one, and one far off (the band misses the median and the full selection runs)
-      for (const hint of [0, scale * 1.02, scale * 5]) {
-        const out = new Float64Array(40);
-        expect(design.residualsAndMadScale(y, coefficients, out, new Float64Array(40), hint)).toBe(scale);
-        expect(Array.from(out)).toEqual(Array.from(expected));
-      }
-    });
+describe('mStep', () => {
+  // built for this test: one M-step of each design against the same quantities computed directly
+  const x = Array.from({ length: 41 }, (_, i) => i + 1);
+  const y = Float64Array.from(x, (v) => 2 + 0.5 * v + Math.sin(3 * v) + (v % 9 === 0 ? 6 : 0));
+  const designs = [
+    ['line', createLineDesign(x), Float64Array.of(1.8, 0.52)],
+    ['general', createDesign(x.map((v) => [1, v, v * v])), Float64Array.of(1.8, 0.52, 0.001)],
+  ] as const;
+  const residualsAt = (design: LinearDesign, beta: Float64Array) => {
+    const r = new Float64Array(x.length);
+    design.residuals(y, beta, r);
+    return r;
+  };
+  /** F(β) = Σψ(rᵢ/s(β))xᵢ with s(β) the MAD of r(β), as the Newton update solves it. */
+  const equations = (design: LinearDesign, rows: number[][], beta: Float64Array, norm: RobustNorm, fixed?: number) => {
+    const r = residualsAt(design, beta);
+    const s = fixed ?? madScale(r, new Float64Array(x.length));
+    return rows[0].map((_, j) => rows.reduce((sum, row, i) => sum + norm.psi(r[i] / s) * row[j], 0));
+  };
+
+  for (const [name, design, beta] of designs) {
+    const rows = x.map((v) => (design.p === 2 ? [1, v] : [1, v, v * v]));
+    for (const norm of [huberNorm(), tukeyBisquareNorm(), hampelNorm()]) {
+      it(`${name} design, ${norm.name}: the scale is the MAD of the residuals (any previous scale), the IRLS update the weighted fit`, () => {
+        const r = residualsAt(design, beta);
+        const mad = madScale(r, new Float64Array(x.length));
+        const weights = Float64Array.from(r, (v) => norm.weight(v / mad));
+        const expected = design.solveWeighted(y, weights);
+        // no previous scale, a close one, and one far off (the band misses the median and the full selection runs)
+        for (const previous of [0, mad * 1.02, mad * 5]) {
+          const irls = new Float64Array(design.p);
+          expect(design.mStep(y, beta, norm, { previous }, mStepWork(x.length), irls, null)).toBe(mad);
+          irls.forEach((v, j) => expect(v).toBeCloseTo(expected[j], 9));
+        }
+      });
+
+      it(`${name} design, ${norm.name}: the Newton update solves the linearised equations, and is withheld only where plain IRLS barely contracts`, () => {
+        for (const fixed of [undefined, 1.3]) {
+          const newton = new Float64Array(design.p);
+          design.mStep(y, beta, norm, { fixed, previous: 0 }, mStepWork(x.length), new Float64Array(design.p), newton);
+          // central differences (the MAD is linear in β between switches of its median residuals; h stays inside)
+          const jacobian = (map: (at: Float64Array) => number[]) =>
+            Array.from({ length: design.p }, (_, k) => {
+              const h = 1e-7 * Math.max(1, Math.abs(beta[k]));
+              const up = beta.slice();
+              const down = beta.slice();
+              up[k] += h;
+              down[k] -= h;
+              const fUp = map(up);
+              const fDown = map(down);
+              return fUp.map((v, j) => (v - fDown[j]) / (2 * h)); // column k
+            });
+          const irlsUpdate = (at: Float64Array) => {
+            const out = new Float64Array(design.p);
+            design.mStep(y, at, norm, { fixed, previous: 0 }, mStepWork(x.length), out, null);
+            return Array.from(out);
+          };
+          const columns = jacobian(irlsUpdate);
+          const plainJacobian = new Matrix(columns).transpose();
+          const eigen = new EigenvalueDecomposition(plainJacobian);
+          const radius = Math.max(...eigen.realEigenvalues.map((re, j) => Math.hypot(re, eigen.imaginaryEigenvalues[j])));
+          if (Number.isNaN(newton[0])) {
+            // withheld: mStep judges contraction by the Jacobian at a solution, which differs from this one away from it
+            expect(radius).toBeGreaterThan(0.5);
+            continue;
+          }
+          // F(β) + J·Δ vanishes for Δ = newton − β
+          const f0 = equations(design, rows, beta, norm, fixed);
+          const fColumns = jacobian((at) => equations(design, rows, at, norm, fixed));
+          const predicted = f0.map((v, j) => v + fColumns.reduce((sum, column, k) => sum + column[j] * (newton[k] - beta[k]), 0));
+          const size = Math.max(...f0.map(Math.abs));
+          predicted.forEach((v) => expect(Math.abs(v)).toBeLessThan(1e-5 * size));
+        }
+      });
+    }
   }
 });

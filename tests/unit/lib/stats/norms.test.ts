@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 import {
   hampelNorm,
+  LineStep,
   huberNorm,
   leastSquaresNorm,
   normByKey,
@@ -107,6 +108,33 @@ describe('the weights array form', () => {
         const out = new Float64Array(residuals.length);
         norm.weights(residuals, scale, out);
         residuals.forEach((r, i) => expect(out[i]).toBeCloseTo(norm.weight(r / scale), 12));
+      }
+    });
+  }
+});
+
+describe('the line-step sums', () => {
+  // residuals across every piece of every family (as above), on x values around a centre
+  const residuals = [0, 0.3, -0.9, 1.2, -2.5, 3.1, -4.2, 5.5, -6.8, 7.9, -9.5, 14, -40];
+  const xs = Float64Array.from(residuals, (_, i) => 10 + 3 * i);
+  const [a, b] = [1.5, 0.8];
+  const y = Float64Array.from(residuals, (r, i) => a + b * xs[i] + r);
+  const families = [leastSquaresNorm(), huberNorm(), huberNorm(2), tukeyBisquareNorm(), tukeyBisquareNorm(3), hampelNorm(), hampelNorm(1.5, 3.5, 8)];
+  for (const norm of families) {
+    it(`${norm.name} ${norm.tuning.join(', ')}: the sums of w and ψ′ times 1, d, d², r, r·d equal those from the scalar forms`, () => {
+      for (const scale of [0.7, 1, 2.3]) {
+        const centre = 25;
+        const work = { xs, centre, y, sums: new Float64Array(LineStep.size) };
+        norm.lineStep(work, a, b, scale);
+        const expected = new Array<number>(LineStep.size).fill(0);
+        residuals.forEach((r, i) => {
+          const d = xs[i] - centre;
+          const w = norm.weight(r / scale);
+          const p = norm.psiDeriv(r / scale);
+          const terms = [w, w * d, w * d * d, w * r, w * r * d, p, p * d, p * d * d, p * r, p * r * d];
+          terms.forEach((t, k) => (expected[k] += t));
+        });
+        expected.forEach((v, k) => expect(work.sums[k]).toBeCloseTo(v, 9));
       }
     });
   }

@@ -1,6 +1,6 @@
 import { iterateToFixedPoint, relativeChange } from './acceleration';
 import { StatsInputError } from './errors';
-import { createDesign, madScale, toArray, type LinearDesign } from './linear';
+import { createDesign, MAD_CONSTANT, madScale, medianAbs, toArray, type LinearDesign } from './linear';
 import { validateResponse } from './ols';
 import { seededRandom, type SeededRandom } from './random';
 import { validatePositive } from './validate';
@@ -128,6 +128,8 @@ interface SearchKernel {
   bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean;
   /** The kernel of the given rows only, in that order. */
   select(rows: ArrayLike<number>): SearchKernel;
+  /** Every MAD_GUESS_STRIDE-th row in an order that spreads them over the design (see guessedMadScale). */
+  guessRows(): Int32Array;
 }
 
 /**
@@ -227,6 +229,12 @@ class LineKernel implements SearchKernel {
     }
     return new LineKernel(x, y);
   }
+
+  guessRows(): Int32Array {
+    const { x } = this;
+    const byX = Int32Array.from(x, (_, i) => i).sort((i, j) => x[i] - x[j]);
+    return Int32Array.from({ length: Math.ceil(this.n / MAD_GUESS_STRIDE) }, (_, k) => byX[k * MAD_GUESS_STRIDE]);
+  }
 }
 
 /** The kernel of any other design, through the design's own residuals and weighted least squares (QR). */
@@ -283,6 +291,10 @@ class DesignKernel implements SearchKernel {
   select(rows: ArrayLike<number>): SearchKernel {
     return new DesignKernel(this.design.select(rows), Float64Array.from(rows, (i) => this.y[i]));
   }
+
+  guessRows(): Int32Array {
+    return Int32Array.from({ length: Math.ceil(this.n / MAD_GUESS_STRIDE) }, (_, k) => k * MAD_GUESS_STRIDE);
+  }
 }
 
 /** Column j of X, read through the design: y − Xβ with y = 0 and β = −eⱼ. */
@@ -303,6 +315,20 @@ function searchKernel(design: LinearDesign, y: Float64Array): SearchKernel {
     if (intercept) return new LineKernel(designColumn(design, 1), y);
   }
   return new DesignKernel(design, y);
+}
+
+/** Every how many rows one enters the sample whose residuals guess the MAD of all (see guessedMadScale). */
+const MAD_GUESS_STRIDE = 4;
+
+/**
+ * The MAD scale of the residuals, found through a guess: the median of |r| over the rows `guessRows` lets madScale
+ * select among the values within ±10 % of it only, and where the median lies outside that band madScale selects among
+ * all values, so the result is the MAD either way. A line's residuals vary with x, so rows spread over x guess well:
+ * on the bench data the guess lands in the band for 75–90 % of the subsamples.
+ */
+function guessedMadScale(residuals: Float64Array, guessRows: Int32Array, sample: Float64Array, scratch: Float64Array): number {
+  for (let k = 0; k < guessRows.length; k++) sample[k] = residuals[guessRows[k]];
+  return madScale(residuals, scratch, medianAbs(sample, scratch) / MAD_CONSTANT);
 }
 
 interface Candidate {
@@ -348,6 +374,8 @@ function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededR
   const bound = (n - p) * b; // Σρ(r/s) at the M-scale s
   const residuals = new Float64Array(n);
   const scratch = new Float64Array(n);
+  const guessRows = kernel.guessRows();
+  const sample = new Float64Array(guessRows.length);
   const rows = new Array<number>(p).fill(0);
   const beta = new Float64Array(p);
   const keptScales = new Float64Array(bestCandidates); // increasing
@@ -360,7 +388,7 @@ function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededR
     if (!kernel.exactFit(rows, beta)) continue; // singular subsample (e.g. two equal x): draw again
     accepted++;
     kernel.residuals(beta, residuals);
-    let scale = madScale(residuals, scratch);
+    let scale = guessedMadScale(residuals, guessRows, sample, scratch);
     // Σρ(r/s) decreases in s: if it is ≥ (n − p)b at the worst kept scale, this candidate's M-scale is not smaller
     const worst = kept === bestCandidates ? keptScales[kept - 1] : Infinity;
     let rhoAtWorst = refinementSteps === 0 ? sumRho(residuals, c * worst) : 0;

@@ -149,10 +149,22 @@ describe('bootstrapBiasIntervals', () => {
   }
 
   it('Passing–Bablok: the weighted refit from the sorted full-data slopes equals the 1983 definition on each resample', () => {
-    // the PEF data as measured, and rounded to 25 l/min so that resamples hold identical points and vertical pairs;
-    // on both, every resample takes the banded scan (its start from a weighted inversion count)
+    // the PEF data as measured, rounded to 25 l/min so that resamples hold identical points and vertical pairs, and
+    // integer data with points on x + y = 700 (slopes of exactly −1); on each, every resample's scan starts from the
+    // weighted inversion count at the full data's median slope and runs down or up from there, both of which occur
     const rounded = (v: number[]) => v.map((z) => 25 * Math.round(z / 25));
-    for (const [xs, ys] of [[x, y], [rounded(x), rounded(y)]]) {
+    const rng = seededRandom(12);
+    const withMinusOne: [number[], number[]] = [[], []];
+    for (let i = 0; i < 52; i++) {
+      const truth = 100 + 500 * rng.next();
+      withMinusOne[0].push(Math.round(truth + 30 * (rng.next() - 0.5)));
+      withMinusOne[1].push(Math.round(1.02 * truth + 30 * (rng.next() - 0.5)));
+    }
+    for (const v of [300, 320, 340, 360, 380, 400, 420, 440]) {
+      withMinusOne[0].push(v);
+      withMinusOne[1].push(700 - v);
+    }
+    for (const [xs, ys] of [[x, y], [rounded(x), rounded(y)], withMinusOne]) {
       const fit = fitPassingBablok(xs, ys);
       expect(bruteForcePassingBablok(xs, ys).slope).toBeCloseTo(fit.slope, 12);
       const ours = bootstrapBiasIntervals(xs, ys, fit, levels, { seed: 4, resamples: 300, method: 'percentile' });

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { fitPassingBablok } from '../../../../src/lib/stats/passingBablok';
+import { fitPassingBablok, stableOrder } from '../../../../src/lib/stats/passingBablok';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 import { normalQuantile } from '../../../../src/lib/stats/distributions';
 import { seededRandom, type SeededRandom } from '../../../../src/lib/stats/random';
@@ -206,6 +206,31 @@ describe('fitPassingBablok against the brute-force definition', () => {
     });
   }
 
+  // Medians are found by selection, which cannot tell −0 from +0; sorting (the brute force) puts −0 first.
+  for (const [half, algorithm] of [
+    [40, 'direct'],
+    [150, 'selection'],
+  ] as const) {
+    it(`a median offset of −0 (n = ${2 * half + 1}, ${algorithm}): intercept and its CI equal the brute force, sign included`, () => {
+      // y = x (offset +0) at even x, y = x − 5 at odd x, and (0, −0), whose offset −0 − 1·0 is −0 and the middle one;
+      // integers, so every slope within a line is exactly 1, and so is the median slope
+      const x = [0];
+      const y = [-0];
+      for (let i = 1; i <= half; i++) {
+        x.push(2 * i, 2 * i - 1);
+        y.push(2 * i, 2 * i - 6);
+      }
+      const expected = bruteForce(x, y);
+      expect(expected.slope).toBe(1);
+      expect(Object.is(expected.intercept, -0)).toBe(true);
+      const fit = fitPassingBablok(x, y, { algorithm });
+      expect(fit.slope).toBe(expected.slope);
+      expect(Object.is(fit.intercept, -0)).toBe(true);
+      expect(fit.slopeCI).toEqual(expected.slopeCI);
+      fit.interceptCI.forEach((end, k) => expect(Object.is(end, expected.interceptCI[k])).toBe(true));
+    });
+  }
+
   it('larger continuous data (n = 1200): selection equals the brute force', () => {
     const { x, y } = line(1200, -2, 0.98, 2, 0)(seededRandom(77));
     const expected = bruteForce(x, y);
@@ -217,6 +242,18 @@ describe('fitPassingBablok against the brute-force definition', () => {
       ...expected.interceptCI,
       expected.shift,
     ]);
+  });
+});
+
+describe('stableOrder', () => {
+  it('equals a comparison sort by key, ties (−0 and +0 among them, ±∞) in index order', () => {
+    const rng = seededRandom(3);
+    const keys = Float64Array.from({ length: 3000 }, () => {
+      const u = rng.next();
+      return u < 0.05 ? -0 : u < 0.1 ? 0 : u < 0.12 ? Infinity : u < 0.14 ? -Infinity : Math.round(40 * (rng.next() - 0.5)) / 4;
+    });
+    const expected = Array.from(keys, (_, i) => i).sort((p, q) => (keys[p] === keys[q] ? p - q : keys[p] - keys[q]));
+    expect(Array.from(stableOrder(keys))).toEqual(expected);
   });
 });
 

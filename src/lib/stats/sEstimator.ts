@@ -122,10 +122,11 @@ interface SearchKernel {
   /** Writes the residuals at β into `residuals` and returns their Σρ(rᵢ/s) (see sumRho), in one pass. */
   residualsAndRho(beta: Float64Array, cutoff: number, residuals: Float64Array): number;
   /**
-   * One weighted least squares fit with the bisquare weights (1 − (rᵢ/cutoff)²)² (0 beyond the cutoff) of the residuals
-   * at β, written into the first p entries of `out` (which may be `beta`); false when the rows with weight are singular.
+   * One weighted least squares fit with the bisquare weights (1 − (rᵢ/cutoff)²)² (0 beyond the cutoff) of `residuals`,
+   * the residuals at β, written into the first p entries of `out` (which may be `beta`); false when the rows with
+   * weight are singular.
    */
-  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean;
+  bisquareFit(beta: Float64Array, residuals: Float64Array, cutoff: number, out: Float64Array): boolean;
   /** The kernel of the given rows only, in that order. */
   select(rows: ArrayLike<number>): SearchKernel;
   /** Every MAD_GUESS_STRIDE-th row in an order that spreads them over the design (see guessedMadScale). */
@@ -133,9 +134,9 @@ interface SearchKernel {
 }
 
 /**
- * The kernel of the line y = a + b·x in closed form, each step one pass over x and y: the weighted fit regresses the
- * residuals on x (Δb = Σw(x − x̄)(r − r̄)/Σw(x − x̄)², Δa = r̄ − Δb·x̄ with weighted means; any regression text), with sums
- * about the mean of x, and adds (Δa, Δb) to β, so the sums hold residuals, not the far larger y.
+ * The kernel of the line y = a + b·x in closed form, each operation one pass over the data: the weighted fit regresses
+ * the residuals on x (Δb = Σw(x − x̄)(r − r̄)/Σw(x − x̄)², Δa = r̄ − Δb·x̄ with weighted means; any regression text), with
+ * sums about the mean of x, and adds (Δa, Δb) to β, so the sums hold residuals, not the far larger y.
  */
 class LineKernel implements SearchKernel {
   readonly n: number;
@@ -188,8 +189,8 @@ class LineKernel implements SearchKernel {
     return n - sum;
   }
 
-  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean {
-    const { x, y, n, shiftX } = this;
+  bisquareFit(beta: Float64Array, residuals: Float64Array, cutoff: number, out: Float64Array): boolean {
+    const { x, n, shiftX } = this;
     const a = beta[0];
     const b = beta[1];
     const k = 1 / cutoff;
@@ -199,7 +200,7 @@ class LineKernel implements SearchKernel {
     let sumXX = 0;
     let sumXR = 0;
     for (let i = 0; i < n; i++) {
-      const r = y[i] - a - b * x[i];
+      const r = residuals[i];
       const u = r * k;
       const t = 1 - u * u;
       const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0) without a branch: these comparisons are unpredictable
@@ -241,7 +242,6 @@ class LineKernel implements SearchKernel {
 class DesignKernel implements SearchKernel {
   readonly n: number;
   readonly p: number;
-  private readonly work: Float64Array;
   private readonly weights: Float64Array;
 
   constructor(
@@ -250,7 +250,6 @@ class DesignKernel implements SearchKernel {
   ) {
     this.n = design.n;
     this.p = design.p;
-    this.work = new Float64Array(this.n);
     this.weights = new Float64Array(this.n);
   }
 
@@ -269,18 +268,19 @@ class DesignKernel implements SearchKernel {
     return sumRho(residuals, cutoff);
   }
 
-  bisquareFit(beta: Float64Array, cutoff: number, out: Float64Array): boolean {
-    const { work, weights } = this;
-    this.residuals(beta, work);
+  bisquareFit(beta: Float64Array, residuals: Float64Array, cutoff: number, out: Float64Array): boolean {
+    const { weights } = this;
     const k = 1 / cutoff;
     for (let i = 0; i < this.n; i++) {
-      const u = work[i] * k;
+      const u = residuals[i] * k;
       const t = 1 - u * u;
       const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0), as in sumRho
       weights[i] = v * v;
     }
     try {
-      out.set(this.design.solveWeighted(this.y, weights));
+      // as the line does: regress the residuals, and add that fit to β
+      const change = this.design.solveWeighted(residuals, weights);
+      for (let j = 0; j < this.p; j++) out[j] = beta[j] + change[j];
       return true;
     } catch (error) {
       if (error instanceof StatsInputError) return false;
@@ -393,7 +393,7 @@ function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededR
     const worst = kept === bestCandidates ? keptScales[kept - 1] : Infinity;
     let rhoAtWorst = refinementSteps === 0 ? sumRho(residuals, c * worst) : 0;
     for (let step = 1; step <= refinementSteps; step++) {
-      if (!kernel.bisquareFit(beta, c * scale, beta)) continue subsample; // all weight on one x value: cannot be refined
+      if (!kernel.bisquareFit(beta, residuals, c * scale, beta)) continue subsample; // all weight on one x value: cannot be refined
       // the last step's scale would only start the M-scale below, so its pass checks the worst kept scale instead
       if (step === refinementSteps) rhoAtWorst = kernel.residualsAndRho(beta, c * worst, residuals);
       else scale *= Math.sqrt(kernel.residualsAndRho(beta, c * scale, residuals) / bound);
@@ -431,7 +431,8 @@ function refineFully(kernel: SearchKernel, start: Candidate, settings: Settings)
   const step = (state: Float64Array): Float64Array => {
     const scale = state[p];
     const next = new Float64Array(p + 1);
-    if (!kernel.bisquareFit(state, c * scale, next)) {
+    if (state !== residualsOf) kernel.residuals(state, residuals); // an accelerated state, or the start
+    if (!kernel.bisquareFit(state, residuals, c * scale, next)) {
       throw new StatsInputError('the S-estimate cannot be refined: the samples with non-zero weight do not determine a fit', {
         field: 'X',
       });

@@ -2,7 +2,7 @@ import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { lineBias } from './lineBias';
-import { createLineDesign, mStepWork, selectKth } from './linear';
+import { createLineDesign, mStepWork } from './linear';
 import { irlsOnDesign } from './mEstimator';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
@@ -167,8 +167,8 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
  * Passing & Bablok 1983) are weighted counts over the one sorted list, and a = median(y − b·x) over the resample.
  * Slopes are (y_j − y_i)/(x_j − x_i), identical points skipped, slopes of exactly −1 dropped, equal x with different
  * y counted as +∞ — as in fitPassingBablok, which the tests compare it with. O(n²) once, then per resample the
- * weight below the full data's median slope (slopeScanStart) and a scan from there to the resample's median, with
- * no allocation, instead of a full fit with its intervals and linearity test.
+ * weight below the full data's median slope (slopeScanStart), a scan from there to the resample's median and the
+ * median offset from a nearly sorted order (weightedMedianOffset), with no allocation, instead of a full fit with its intervals and linearity test.
  */
 function passingBablokRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
   const n = x.length;
@@ -210,7 +210,12 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
   while (belowMinusOneEnd < kept && sortedSlopes[belowMinusOneEnd] < -1) belowMinusOneEnd++;
 
   const counts = new Int32Array(n);
-  const offsets = new Float64Array(n);
+  // the points in the order of y − b·x at the full data's median slope, near every resample's b
+  const middle = sortedSlopes[belowMinusOneEnd + ((kept - 1) >> 1)];
+  const referenceSlope = Number.isFinite(middle) ? middle : 0;
+  const byOffset = stableOrder(Float64Array.from(x, (xi, i) => y[i] - referenceSlope * xi));
+  const offsetValues = new Float64Array(n);
+  const offsetCounts = new Int32Array(n);
   const droppedFirst = Uint16Array.from(excludedFirst);
   const droppedSecond = Uint16Array.from(excludedSecond);
   const scanStart = slopeScanStart(x, y, sortedSlopes, sortedFirst, sortedSecond, belowMinusOneEnd, excludedFirst, excludedSecond);
@@ -235,9 +240,7 @@ function passingBablokRefit(x: readonly number[], y: readonly number[]): Indexed
     if (!Number.isFinite(slope)) {
       throw new StatsInputError('the resample\'s median slope is a vertical pair: too many samples share one x value', { field: 'x' });
     }
-    const o = size === n ? offsets : offsets.subarray(0, size);
-    for (let i = 0; i < size; i++) o[i] = y[indices[i]] - slope * x[indices[i]];
-    return [medianInPlace(o), slope];
+    return [weightedMedianOffset(x, y, slope, byOffset, counts, size, offsetValues, offsetCounts), slope];
   };
 }
 
@@ -385,15 +388,46 @@ function weightedInversions(xOrder: Int32Array, treeIndex: Int32Array, tree: Int
   return weight;
 }
 
-/** Median of `values`, reordering them (even length: mean of the two middle values). */
-function medianInPlace(values: Float64Array): number {
-  const size = values.length;
-  const half = size >> 1;
-  const upper = selectKth(values, half);
-  if (size % 2 === 1) return upper;
-  let lower = -Infinity;
-  for (let i = 0; i < half; i++) if (values[i] > lower) lower = values[i];
-  return (lower + upper) / 2;
+/**
+ * median(y − b·x) over a resample of `size` samples holding point i counts[i] times (even size: mean of the two
+ * middle values). The present points' offsets are insertion-sorted, with their counts, into `values` and `weights`
+ * taking the points in `byOffset`, their order at a slope near b, so that only the few pairs whose order differs
+ * between the two slopes move; the middle ranks are then read off the cumulative counts. A function of its own so
+ * that the arrays are arguments, not captured variables.
+ */
+function weightedMedianOffset(
+  x: readonly number[],
+  y: readonly number[],
+  slope: number,
+  byOffset: Int32Array,
+  counts: Int32Array,
+  size: number,
+  values: Float64Array,
+  weights: Int32Array,
+): number {
+  let m = 0;
+  for (let r = 0; r < byOffset.length; r++) {
+    const point = byOffset[r];
+    const c = counts[point];
+    if (c === 0) continue;
+    const value = y[point] - slope * x[point];
+    let j = m - 1;
+    while (j >= 0 && values[j] > value) {
+      values[j + 1] = values[j];
+      weights[j + 1] = weights[j];
+      j--;
+    }
+    values[j + 1] = value;
+    weights[j + 1] = c;
+    m++;
+  }
+  // values[k] holds the 0-based ranks up to `upTo` − 1
+  let k = 0;
+  let upTo = weights[0];
+  while (upTo <= (size - 1) >> 1) upTo += weights[++k];
+  const lower = values[k];
+  while (upTo <= size >> 1) upTo += weights[++k];
+  return size % 2 === 1 ? lower : (lower + values[k]) / 2;
 }
 
 /** Above this many samples the sorted slope list (12 bytes a pair) would be too large; refit in full instead. */

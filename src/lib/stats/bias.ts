@@ -151,6 +151,7 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
     for (let i = 0; i < size; i++) ry[i] = y[indices[i]];
     const { beta } = irlsOnDesign(full.select(indices), ry, norm, Float64Array.of(fit.intercept, fit.slope), {
       fixedScale,
+      scaleHint: fit.scale,
       tolerance: REFIT_TOLERANCE,
       maxIterations: REFIT_MAX_ITERATIONS,
       buffers: work,

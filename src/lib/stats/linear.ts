@@ -177,7 +177,7 @@ class LineDesign implements LinearDesign {
     const { xs, shiftX } = this;
     const a = beta[0];
     const b = beta[1];
-    const s = scale.fixed ?? this.madWithBand(y, a, b, work, scale.previous * MAD_CONSTANT);
+    const s = scale.fixed ?? this.madWithBand(y, a, b, work, scale.previous * MAD_CONSTANT, newton !== null);
     const step = this.stepWork;
     step.y = y;
     norm.lineStep(step, a, b, s);
@@ -230,9 +230,9 @@ class LineDesign implements LinearDesign {
    * The MAD scale of the residuals of (a, b) in one pass: the |r| within ±10 % of `near` (a previous median) are
    * gathered with their positions and the median selected among them, or among all |r| when it lies outside that band.
    * Without `near`, a large sample takes the median of an evenly spaced subsample as its guess, within ±25 %.
-   * Leaves the positions of the lower and upper middle value in work.bandIndex[0..2).
+   * With `locate`, leaves the positions of the lower and upper middle value in work.bandIndex[0..2).
    */
-  private madWithBand(y: Float64Array, a: number, b: number, work: MStepWork, near: number): number {
+  private madWithBand(y: Float64Array, a: number, b: number, work: MStepWork, near: number, locate: boolean): number {
     const { xs, n } = this;
     const { band, bandIndex } = work;
     let guess = near;
@@ -258,6 +258,8 @@ class LineDesign implements LinearDesign {
       m = n;
       middleOf(band, n, 0, n);
     }
+    const median = (MIDDLES[0] + MIDDLES[1]) / 2;
+    if (!locate) return scaleFromMedian(median);
     // the positions of the middle values, for the scale's derivative (the band's positions are still in order)
     let lowerAt = -1;
     let upperAt = -1;
@@ -269,7 +271,7 @@ class LineDesign implements LinearDesign {
     }
     bandIndex[0] = lowerAt;
     bandIndex[1] = upperAt;
-    return scaleFromMedian((MIDDLES[0] + MIDDLES[1]) / 2);
+    return scaleFromMedian(median);
   }
 
   crossProductInverse(weights: Float64Array | null): number[][] {
@@ -284,11 +286,11 @@ class LineDesign implements LinearDesign {
     const { sumW, meanX, sxx } = this.moments(weights);
     const { xs, n } = this;
     const hat = new Float64Array(n);
+    const inverseSumW = 1 / sumW;
     for (let i = 0; i < n; i++) {
       const d = xs[i] - meanX;
-      hat[i] = 1 / sumW + (d * d) / sxx;
+      hat[i] = (weights === null ? 1 : weights[i]) * (inverseSumW + (d * d) / sxx);
     }
-    if (weights !== null) for (let i = 0; i < n; i++) hat[i] *= weights[i];
     return hat;
   }
 

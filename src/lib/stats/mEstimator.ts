@@ -49,7 +49,8 @@ export interface MEstimate {
   weights: number[];
   /** Diagonal of the hat matrix of W^½X at the final weights. */
   hat: number[];
-  residuals: number[];
+  /** y − Xβ at the final coefficients (a typed array: the line fits do not pass it on). */
+  residuals: Float64Array;
 }
 
 /**
@@ -136,6 +137,8 @@ export interface IrlsResult {
 /** Options of irlsOnDesign; work space may be lent so that repeated fits (bootstrap resamples) allocate nothing. */
 export interface IrlsOptions {
   fixedScale?: number;
+  /** A scale near the first MAD, which only speeds its median up (the result is the same). */
+  scaleHint?: number;
   tolerance: number;
   maxIterations: number;
   /** Newton updates once the steps are small (default true); false gives plain IRLS, iterate by iterate. */
@@ -170,7 +173,7 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
   const { tolerance, maxIterations } = options;
   const { n, p } = design;
   const work = options.buffers ?? mStepWork(n);
-  const scale = { fixed: options.fixedScale, previous: 0 };
+  const scale = { fixed: options.fixedScale, previous: options.scaleHint ?? 0 };
   const irls = new Float64Array(p);
   const newton = new Float64Array(p);
   const accelerate = options.accelerate ?? true;
@@ -282,7 +285,7 @@ export function mEstimateOnDesign(
     start: opts.startKind ?? start.kind,
     weights: toArray(weights),
     hat: toArray(design.hatDiagonal(weights)),
-    residuals: toArray(residuals),
+    residuals,
   };
 }
 

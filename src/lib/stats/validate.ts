@@ -17,7 +17,9 @@ export function validatePairs(x: readonly number[], y: readonly number[], minPai
   }
   validateFinite(x, 'x');
   validateFinite(y, 'y');
-  if (x.every((v) => v === x[0])) {
+  let allEqual = true;
+  for (let i = 1; i < x.length && allEqual; i++) allEqual = x[i] === x[0];
+  if (allEqual) {
     throw new StatsInputError(`all x values are equal (${x[0]}), so no line can be fitted`, { field: 'x' });
   }
 }

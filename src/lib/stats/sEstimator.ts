@@ -232,9 +232,13 @@ class LineKernel implements SearchKernel {
   }
 
   guessRows(): Int32Array {
-    const { x } = this;
-    const byX = Int32Array.from(x, (_, i) => i).sort((i, j) => x[i] - x[j]);
-    return Int32Array.from({ length: Math.ceil(this.n / MAD_GUESS_STRIDE) }, (_, k) => byX[k * MAD_GUESS_STRIDE]);
+    const { x, n } = this;
+    const byX = new Int32Array(n);
+    for (let i = 0; i < n; i++) byX[i] = i;
+    byX.sort((i, j) => x[i] - x[j]);
+    const rows = new Int32Array(Math.ceil(n / MAD_GUESS_STRIDE));
+    for (let k = 0; k < rows.length; k++) rows[k] = byX[k * MAD_GUESS_STRIDE];
+    return rows;
   }
 }
 
@@ -293,7 +297,9 @@ class DesignKernel implements SearchKernel {
   }
 
   guessRows(): Int32Array {
-    return Int32Array.from({ length: Math.ceil(this.n / MAD_GUESS_STRIDE) }, (_, k) => k * MAD_GUESS_STRIDE);
+    const rows = new Int32Array(Math.ceil(this.n / MAD_GUESS_STRIDE));
+    for (let k = 0; k < rows.length; k++) rows[k] = k * MAD_GUESS_STRIDE;
+    return rows;
   }
 }
 
@@ -393,7 +399,8 @@ function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededR
     const worst = kept === bestCandidates ? keptScales[kept - 1] : Infinity;
     let rhoAtWorst = refinementSteps === 0 ? sumRho(residuals, c * worst) : 0;
     for (let step = 1; step <= refinementSteps; step++) {
-      if (!kernel.bisquareFit(beta, residuals, c * scale, beta)) continue subsample; // all weight on one x value: cannot be refined
+      // the rows with weight are singular (e.g. all at one x): this candidate cannot be refined
+      if (!kernel.bisquareFit(beta, residuals, c * scale, beta)) continue subsample;
       // the last step's scale would only start the M-scale below, so its pass checks the worst kept scale instead
       if (step === refinementSteps) rhoAtWorst = kernel.residualsAndRho(beta, c * worst, residuals);
       else scale *= Math.sqrt(kernel.residualsAndRho(beta, c * scale, residuals) / bound);

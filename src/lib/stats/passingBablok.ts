@@ -151,19 +151,39 @@ interface Points {
  * stableOrder(Float64Array.of(3, 1, 3, 2)); // Int32Array [1, 3, 0, 2]
  */
 export function stableOrder(keys: Float64Array): Int32Array {
-  const order = Int32Array.from({ length: keys.length }, (_, i) => i);
+  const order = identityOrder(keys.length);
   mergeSort(order, keys, mergeScratch(keys.length), null, null);
   return order;
 }
 
 function sortPoints(x: readonly number[], y: readonly number[]): Points {
   const n = x.length;
-  const order = Int32Array.from({ length: n }, (_, i) => i);
+  const keyX = Float64Array.from(x);
   const scratch = mergeScratch(n);
-  // Two stable passes: by y, then by x, give the (x, y) order.
-  mergeSort(order, Float64Array.from(y), scratch, null, null);
-  mergeSort(order, Float64Array.from(x), scratch, null, null);
-  return { x: Float64Array.from(order, (i) => x[i]), y: Float64Array.from(order, (i) => y[i]) };
+  let order = identityOrder(n);
+  mergeSort(order, keyX, scratch, null, null);
+  let tiedX = false;
+  for (let k = 1; k < n && !tiedX; k++) tiedX = x[order[k]] === x[order[k - 1]];
+  if (tiedX) {
+    // Two stable passes: by y, then by x, give the (x, y) order.
+    order = identityOrder(n);
+    mergeSort(order, Float64Array.from(y), scratch, null, null);
+    mergeSort(order, keyX, scratch, null, null);
+  }
+  const sortedX = new Float64Array(n);
+  const sortedY = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    sortedX[k] = x[order[k]];
+    sortedY[k] = y[order[k]];
+  }
+  return { x: sortedX, y: sortedY };
+}
+
+/** 0, 1, …, n − 1. */
+function identityOrder(n: number): Int32Array {
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  return order;
 }
 
 /** The slope between the points of sorted indices i < j with x_i < x_j, computed the one way used everywhere. */
@@ -302,7 +322,7 @@ function cusumTest(points: Points, intercept: number, slope: number, alpha: numb
   // Position along the line: projection on the direction (1, b); ties keep the (x, y) order.
   const position = new Float64Array(n);
   for (let i = 0; i < n; i++) position[i] = points.x[i] + slope * points.y[i];
-  const order = Int32Array.from({ length: n }, (_, i) => i);
+  const order = identityOrder(n);
   mergeSort(order, position, mergeScratch(n), null, null);
   const up = Math.sqrt(below / above);
   const down = Math.sqrt(above / below);
@@ -500,7 +520,7 @@ class SelectedSlopes implements SlopeSet {
     this.listBudget = Math.max(4 * n, 20_000);
     this.sampleSize = Math.max(2 * n, 10_000);
     this.key = new Float64Array(n);
-    this.identity = Int32Array.from({ length: n }, (_, i) => i);
+    this.identity = identityOrder(n);
     this.work = new Int32Array(n);
     this.scratch = mergeScratch(n);
 

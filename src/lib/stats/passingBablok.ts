@@ -56,7 +56,9 @@ const DIRECT_LIMIT = 200;
  * selection: Matoušek, Inf Process Lett 1991; Dillencourt, Mount & Netanyahu, Int J Comput Geom
  * Appl 1992): the number of slopes below t is the number of inversions of y − t·x in x order,
  * counted by merge sort; random slopes between two bounds are drawn as random inversions; the bounds
- * close in on the wanted ranks until the few slopes between them can be listed and sorted.
+ * close in on the wanted ranks until the few slopes between them can be listed and the ranks
+ * selected. The wanted ranks (median, M1, M2) lie close together, so one bracket around all of them
+ * and one sample inside it start every rank's search, and a bound counted once is not sorted again.
  * Tied or nearly tied slopes (rounded data), which no bound can separate, are settled by comparing
  * slope values in one pass over their cluster, so that case takes time in proportion to its size.
  * Floating-point care: bounds are widened by a margin far above rounding error and the selected

@@ -46,10 +46,29 @@ export interface LinearDesign {
   select(rows: ArrayLike<number>): LinearDesign;
 }
 
-/** Work space of LinearDesign.mStep, of at least n entries each; lent so that repeated fits allocate nothing. */
-export interface MStepWork {
-  band: Float64Array;
-  bandIndex: Int32Array;
+/**
+ * Work space of LinearDesign.mStep, of at least n entries each; lent so that repeated fits allocate nothing. It also
+ * keeps the band of residuals the last MAD was found in, so that the next one, a small step away, looks only there:
+ * call `forget` before it serves other data.
+ */
+export class MStepWork {
+  readonly band: Float64Array;
+  /** Positions of the last band's residuals, in order. */
+  readonly bandIndex: Int32Array;
+  /** Positions of the lower and upper middle |r| of the last MAD (when mStep was asked for a Newton update). */
+  readonly middles = new Int32Array(2);
+  /** The fit (a, b) the last band was gathered at, its bounds, how many |r| were in it and how many below; count < 0: none. */
+  readonly last = { a: 0, b: 0, low: 0, high: 0, count: -1, below: 0 };
+
+  constructor(n: number) {
+    this.band = new Float64Array(n);
+    this.bandIndex = new Int32Array(n);
+  }
+
+  /** Drops the last band (the next data are others). */
+  forget(): void {
+    this.last.count = -1;
+  }
 }
 
 /**
@@ -59,7 +78,7 @@ export interface MStepWork {
  * const work = mStepWork(x.length);
  */
 export function mStepWork(n: number): MStepWork {
-  return { band: new Float64Array(n), bandIndex: new Int32Array(n) };
+  return new MStepWork(n);
 }
 
 /**
@@ -99,6 +118,8 @@ class LineDesign implements LinearDesign {
   readonly p = 2;
   /** Sums are taken about the unweighted mean of x (and y[0] for y), which keeps one-pass sums accurate. */
   private readonly shiftX: number;
+  /** max |x − shiftX|: how far a change of slope can move a residual, per unit. */
+  private readonly spreadX: number;
   private unweighted: LineMoments | undefined;
   /** What mStep hands to the norm's line pass (y is set on each call). */
   private readonly stepWork: LineStepWork;
@@ -106,8 +127,16 @@ class LineDesign implements LinearDesign {
   constructor(private readonly xs: Float64Array) {
     this.n = xs.length;
     let sum = 0;
-    for (let i = 0; i < this.n; i++) sum += xs[i];
+    let min = Infinity;
+    let max = -Infinity;
+    for (let i = 0; i < this.n; i++) {
+      const x = xs[i];
+      sum += x;
+      if (x < min) min = x;
+      if (x > max) max = x;
+    }
     this.shiftX = sum / this.n;
+    this.spreadX = Math.max(max - this.shiftX, this.shiftX - min);
     this.stepWork = { xs, centre: this.shiftX, y: xs, sums: new Float64Array(LineStep.size) };
   }
 
@@ -199,7 +228,7 @@ class LineDesign implements LinearDesign {
     let grad1 = 0;
     if (scale.fixed === undefined) {
       for (let middle = 0; middle < 2; middle++) {
-        const k = work.bandIndex[middle];
+        const k = work.middles[middle];
         const sign = Math.sign(y[k] - a - b * xs[k]) / (2 * MAD_CONSTANT);
         grad0 -= sign;
         grad1 -= sign * (xs[k] - shiftX);
@@ -227,12 +256,70 @@ class LineDesign implements LinearDesign {
   }
 
   /**
-   * The MAD scale of the residuals of (a, b) in one pass: the |r| within ±10 % of `near` (a previous median) are
-   * gathered with their positions and the median selected among them, or among all |r| when it lies outside that band.
-   * Without `near`, a large sample takes the median of an evenly spaced subsample as its guess, within ±25 %.
-   * With `locate`, leaves the positions of the lower and upper middle value in work.bandIndex[0..2).
+   * The MAD scale of the residuals of (a, b). The |r| within ±10 % of `near` (a previous median) are gathered with
+   * their positions in one pass and the median selected among them, or among all |r| when it lies outside that band;
+   * without `near`, a large sample takes the median of an evenly spaced subsample as its guess, within ±25 %.
+   * After a small step from the fit of the last band, no residual has moved by more than δ = |Δa + Δb·c| + |Δb|·
+   * max|x − c|, so only the last band's residuals can lie in that band narrowed by δ at both ends, and every other one
+   * keeps its side: the median is looked for among them alone when it lies there. With `locate`, leaves the positions of
+   * the lower and upper middle value in work.middles.
    */
   private madWithBand(y: Float64Array, a: number, b: number, work: MStepWork, near: number, locate: boolean): number {
+    const { xs, n, shiftX } = this;
+    const { band, bandIndex, last } = work;
+    let found = false;
+    if (last.count >= 0) {
+      const delta = Math.abs(a - last.a + (b - last.b) * shiftX) + Math.abs(b - last.b) * this.spreadX;
+      const low = last.low + delta;
+      const high = last.high - delta;
+      if (low < high) {
+        let m = 0;
+        let below = last.below;
+        for (let j = 0; j < last.count; j++) {
+          const i = bandIndex[j];
+          const size = Math.abs(y[i] - a - b * xs[i]);
+          if (size < low) below++;
+          else if (size <= high) {
+            band[m] = size;
+            bandIndex[m++] = i; // m ≤ j: the positions still to be read are not overwritten
+          }
+        }
+        found = middleInBand(band, m, below, n);
+        Object.assign(last, { a, b, low, high, count: m, below });
+      }
+    }
+    if (!found) found = this.gatherNear(y, a, b, work, near);
+    if (!found) {
+      for (let i = 0; i < n; i++) {
+        band[i] = Math.abs(y[i] - a - b * xs[i]);
+        bandIndex[i] = i;
+      }
+      middleOf(band, n, 0, n);
+      work.forget();
+    }
+    const median = (MIDDLES[0] + MIDDLES[1]) / 2;
+    if (locate) {
+      // the positions of the middle values, for the scale's derivative (the band's positions are in order)
+      const count = last.count >= 0 ? last.count : n;
+      let lowerAt = -1;
+      let upperAt = -1;
+      for (let j = 0; j < count && (lowerAt < 0 || upperAt < 0); j++) {
+        const i = bandIndex[j];
+        const size = Math.abs(y[i] - a - b * xs[i]);
+        if (size === MIDDLES[0] && lowerAt < 0) lowerAt = i;
+        if (size === MIDDLES[1] && upperAt < 0) upperAt = i;
+      }
+      work.middles[0] = lowerAt;
+      work.middles[1] = upperAt;
+    }
+    return scaleFromMedian(median);
+  }
+
+  /**
+   * Gathers the |r| within ±10 % of `near`, or ±25 % of a subsample's median at large n when there is no `near`, and
+   * finds their median when it lies in that band (then the band is kept in work.last for the next MAD).
+   */
+  private gatherNear(y: Float64Array, a: number, b: number, work: MStepWork, near: number): boolean {
     const { xs, n } = this;
     const { band, bandIndex } = work;
     let guess = near;
@@ -245,33 +332,13 @@ class LineDesign implements LinearDesign {
       guess = selectKth(band.subarray(0, GUESS_SAMPLE), GUESS_SAMPLE >> 1);
       width = GUESS_BAND;
     }
-    let m = 0;
-    if (guess > 0) {
-      gatherBand(y, xs, a, b, guess * (1 - width), guess * (1 + width), band, bandIndex);
-      m = BAND_COUNTS[0];
-    }
-    if (!(guess > 0) || !middleInBand(band, m, BAND_COUNTS[1], n)) {
-      for (let i = 0; i < n; i++) {
-        band[i] = Math.abs(y[i] - a - b * xs[i]);
-        bandIndex[i] = i;
-      }
-      m = n;
-      middleOf(band, n, 0, n);
-    }
-    const median = (MIDDLES[0] + MIDDLES[1]) / 2;
-    if (!locate) return scaleFromMedian(median);
-    // the positions of the middle values, for the scale's derivative (the band's positions are still in order)
-    let lowerAt = -1;
-    let upperAt = -1;
-    for (let j = 0; j < m && (lowerAt < 0 || upperAt < 0); j++) {
-      const i = bandIndex[j];
-      const size = Math.abs(y[i] - a - b * xs[i]);
-      if (size === MIDDLES[0] && lowerAt < 0) lowerAt = i;
-      if (size === MIDDLES[1] && upperAt < 0) upperAt = i;
-    }
-    bandIndex[0] = lowerAt;
-    bandIndex[1] = upperAt;
-    return scaleFromMedian(median);
+    if (!(guess > 0)) return false;
+    const low = guess * (1 - width);
+    const high = guess * (1 + width);
+    gatherBand(y, xs, a, b, low, high, band, bandIndex);
+    const [count, below] = BAND_COUNTS;
+    Object.assign(work.last, { a, b, low, high, count, below });
+    return middleInBand(band, count, below, n);
   }
 
   crossProductInverse(weights: Float64Array | null): number[][] {

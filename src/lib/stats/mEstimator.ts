@@ -173,6 +173,7 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
   const { tolerance, maxIterations } = options;
   const { n, p } = design;
   const work = options.buffers ?? mStepWork(n);
+  work.forget(); // lent work space may hold another fit's band
   const scale = { fixed: options.fixedScale, previous: options.scaleHint ?? 0 };
   const irls = new Float64Array(p);
   const newton = new Float64Array(p);

@@ -109,6 +109,18 @@ describe('mStep', () => {
         }
       });
 
+      it(`${name} design, ${norm.name}: steps that share their work space find the same scale as fresh ones`, () => {
+        // a path of small steps (the last band is reused, narrowed), then a jump (the band is gathered anew)
+        const work = mStepWork(x.length);
+        const path = [0, 1e-6, 3e-6, 1e-5, 1e-4, 1e-3, 0.3].map((t) => Float64Array.from(beta, (v, j) => v + t * (j === 0 ? 1 : 0.01)));
+        let previous = 0;
+        for (const at of path) {
+          const expected = madScale(residualsAt(design, at), new Float64Array(x.length));
+          previous = design.mStep(y, at, norm, { previous }, work, new Float64Array(design.p), new Float64Array(design.p));
+          expect(previous).toBe(expected);
+        }
+      });
+
       it(`${name} design, ${norm.name}: the Newton update solves the linearised equations, and is withheld only where plain IRLS barely contracts`, () => {
         for (const fixed of [undefined, 1.3]) {
           const newton = new Float64Array(design.p);

@@ -127,6 +127,11 @@ interface SearchKernel {
    * weight are singular.
    */
   bisquareFit(beta: Float64Array, residuals: Float64Array, cutoff: number, out: Float64Array): boolean;
+  /**
+   * bisquareFit of the residuals at β, computed on the way, and their Σρ(rᵢ/s) (see sumRho): one pass over the data
+   * with no residuals stored; NaN when the rows with weight are singular.
+   */
+  bisquareFitAndRho(beta: Float64Array, cutoff: number, out: Float64Array): number;
   /** The kernel of the given rows only, in that order. */
   select(rows: ArrayLike<number>): SearchKernel;
   /** Every MAD_GUESS_STRIDE-th row in an order that spreads them over the design (see guessedMadScale). */
@@ -191,8 +196,6 @@ class LineKernel implements SearchKernel {
 
   bisquareFit(beta: Float64Array, residuals: Float64Array, cutoff: number, out: Float64Array): boolean {
     const { x, n, shiftX } = this;
-    const a = beta[0];
-    const b = beta[1];
     const k = 1 / cutoff;
     let sumW = 0;
     let sumX = 0;
@@ -213,11 +216,54 @@ class LineKernel implements SearchKernel {
       sumXX += wdx * dx;
       sumXR += wdx * r;
     }
+    return this.addWeightedFit(beta, sumW, sumX, sumR, sumXX, sumXR, out);
+  }
+
+  bisquareFitAndRho(beta: Float64Array, cutoff: number, out: Float64Array): number {
+    const { x, y, n, shiftX } = this;
+    const a = beta[0];
+    const b = beta[1];
+    const k = 1 / cutoff;
+    let sumW = 0;
+    let sumX = 0;
+    let sumR = 0;
+    let sumXX = 0;
+    let sumXR = 0;
+    let sumCube = 0; // Σ max(1 − u², 0)³ = Σ(1 − ρ)
+    for (let i = 0; i < n; i++) {
+      const r = y[i] - a - b * x[i];
+      const u = r * k;
+      const t = 1 - u * u;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − u², 0) without a branch: these comparisons are unpredictable
+      const w = v * v;
+      sumCube += w * v;
+      const dx = x[i] - shiftX;
+      const wdx = w * dx;
+      sumW += w;
+      sumX += wdx;
+      sumR += w * r;
+      sumXX += wdx * dx;
+      sumXR += wdx * r;
+    }
+    return this.addWeightedFit(beta, sumW, sumX, sumR, sumXX, sumXR, out) ? n - sumCube : Number.NaN;
+  }
+
+  /** β + the weighted fit of the residuals on x from its sums (x about shiftX) into `out`; false when singular. */
+  private addWeightedFit(
+    beta: Float64Array,
+    sumW: number,
+    sumX: number,
+    sumR: number,
+    sumXX: number,
+    sumXR: number,
+    out: Float64Array,
+  ): boolean {
     const sxx = sumXX - (sumX * sumX) / sumW;
     if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) return false;
     const slopeChange = (sumXR - (sumX * sumR) / sumW) / sxx;
-    out[0] = a + sumR / sumW - slopeChange * (shiftX + sumX / sumW);
-    out[1] = b + slopeChange;
+    const intercept = beta[0] + sumR / sumW - slopeChange * (this.shiftX + sumX / sumW);
+    out[1] = beta[1] + slopeChange;
+    out[0] = intercept;
     return true;
   }
 
@@ -247,6 +293,7 @@ class DesignKernel implements SearchKernel {
   readonly n: number;
   readonly p: number;
   private readonly weights: Float64Array;
+  private readonly work: Float64Array;
 
   constructor(
     private readonly design: LinearDesign,
@@ -255,6 +302,7 @@ class DesignKernel implements SearchKernel {
     this.n = design.n;
     this.p = design.p;
     this.weights = new Float64Array(this.n);
+    this.work = new Float64Array(this.n);
   }
 
   exactFit(rows: readonly number[], beta: Float64Array): boolean {
@@ -290,6 +338,12 @@ class DesignKernel implements SearchKernel {
       if (error instanceof StatsInputError) return false;
       throw error;
     }
+  }
+
+  bisquareFitAndRho(beta: Float64Array, cutoff: number, out: Float64Array): number {
+    const { work } = this;
+    this.residuals(beta, work);
+    return this.bisquareFit(beta, work, cutoff, out) ? sumRho(work, cutoff) : Number.NaN;
   }
 
   select(rows: ArrayLike<number>): SearchKernel {
@@ -428,24 +482,25 @@ function searchCandidates(kernel: SearchKernel, settings: Settings, rng: SeededR
 /**
  * I-steps from `start` until the relative change in the coefficients is ≤ tolerance; then the exact M-scale.
  * The state iterated is (β, s), accelerated near convergence like IRLS (acceleration.ts), to the same fixed point.
+ * Here an I-step takes the weighted fit and the scale step from the same residuals r(β), one pass over the data
+ * instead of two: its fixed points are the I-step's (β the bisquare fit at its own residuals and scale, and
+ * Σρ(r/s) = (n − p)b), so the S-estimate reached is the same, in no more steps, as the coefficients, not the scale,
+ * are what converges slowly. The search keeps the I-step as published, whose two steps pick the candidates.
  */
 function refineFully(kernel: SearchKernel, start: Candidate, settings: Settings): Refined {
   const { c, b, maxIterations, tolerance } = settings;
   const { n, p } = kernel;
   const bound = (n - p) * b;
-  const residuals = new Float64Array(n);
-  let residualsOf: Float64Array | null = null; // the state whose residuals `residuals` holds
   const step = (state: Float64Array): Float64Array => {
     const scale = state[p];
     const next = new Float64Array(p + 1);
-    if (state !== residualsOf) kernel.residuals(state, residuals); // an accelerated state, or the start
-    if (!kernel.bisquareFit(state, residuals, c * scale, next)) {
+    const rho = kernel.bisquareFitAndRho(state, c * scale, next);
+    if (Number.isNaN(rho)) {
       throw new StatsInputError('the S-estimate cannot be refined: the samples with non-zero weight do not determine a fit', {
         field: 'X',
       });
     }
-    next[p] = scale * Math.sqrt(kernel.residualsAndRho(next, c * scale, residuals) / bound);
-    residualsOf = next;
+    next[p] = scale * Math.sqrt(rho / bound);
     return next;
   };
   // the rule looks at the coefficients only, not at the scale carried as the state's last entry
@@ -454,7 +509,8 @@ function refineFully(kernel: SearchKernel, start: Candidate, settings: Settings)
   initial.set(start.beta);
   initial[p] = start.scale;
   const result = iterateToFixedPoint(step, coefficientChange, initial, tolerance, maxIterations);
-  if (result.beta !== residualsOf) kernel.residuals(result.beta, residuals);
+  const residuals = new Float64Array(n);
+  kernel.residuals(result.beta, residuals);
   return {
     beta: result.beta.slice(0, p),
     scale: mScale(residuals, p, c, b, result.beta[p]),

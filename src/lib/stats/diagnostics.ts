@@ -1,5 +1,5 @@
 import { StatsInputError } from './errors';
-import { createLineDesign, toArray } from './linear';
+import { createLineDesign } from './linear';
 import { fitOlsLine } from './ols';
 import type { LineFit } from './types';
 import { validatePairs } from './validate';
@@ -55,7 +55,7 @@ export function regressionDiagnostics(x: readonly number[], y: readonly number[]
     throw new StatsInputError(`the ${line.method} fit has weights but no hat values`, { field: 'fit' });
   }
   const weights = line.weights ?? new Array<number>(n).fill(1);
-  const hat = weighted ? (line.hat as number[]) : toArray(createLineDesign(x).hatDiagonal(null));
+  const hat = weighted ? (line.hat as number[]) : createLineDesign(x).hatDiagonal(null);
   const residuals = x.map((xi, i) => y[i] - line.intercept - line.slope * xi);
 
   let weightedSS = 0;

@@ -40,8 +40,8 @@ export interface LinearDesign {
   ): number;
   /** (X'WX)⁻¹ as a p × p array; `weights` null means all 1. */
   crossProductInverse(weights: Float64Array | null): number[][];
-  /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. */
-  hatDiagonal(weights: Float64Array | null): Float64Array;
+  /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. A plain array, as results carry it. */
+  hatDiagonal(weights: Float64Array | null): number[];
   /** The design made of the given rows only, in that order (repeats allowed, as in a bootstrap resample). */
   select(rows: ArrayLike<number>): LinearDesign;
 }
@@ -349,10 +349,10 @@ class LineDesign implements LinearDesign {
     ];
   }
 
-  hatDiagonal(weights: Float64Array | null): Float64Array {
+  hatDiagonal(weights: Float64Array | null): number[] {
     const { sumW, meanX, sxx } = this.moments(weights);
     const { xs, n } = this;
-    const hat = new Float64Array(n);
+    const hat = new Array<number>(n);
     const inverseSumW = 1 / sumW;
     for (let i = 0; i < n; i++) {
       const d = xs[i] - meanX;
@@ -530,7 +530,7 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
     hatDiagonal(weights) {
       const inv = crossProductInverseMatrix(weights);
       const xm = full.mmul(inv);
-      const hat = new Float64Array(n);
+      const hat = new Array<number>(n);
       for (let i = 0; i < n; i++) {
         let h = 0;
         for (let j = 0; j < p; j++) h += xm.get(i, j) * rows[i][j];

@@ -285,7 +285,7 @@ export function mEstimateOnDesign(
     converged,
     start: opts.startKind ?? start.kind,
     weights: toArray(weights),
-    hat: toArray(design.hatDiagonal(weights)),
+    hat: design.hatDiagonal(weights),
     residuals,
   };
 }

@@ -73,7 +73,7 @@ export function olsOnDesign(design: LinearDesign, y: Float64Array, confidence = 
     df,
     residuals: toArray(residuals),
     fitted: toArray(y.map((yi, i) => yi - residuals[i])),
-    hat: toArray(design.hatDiagonal(null)),
+    hat: design.hatDiagonal(null),
   };
 }
 

@@ -1,6 +1,6 @@
 import { EigenvalueDecomposition, Matrix, QrDecomposition, LuDecomposition, inverse, solve } from 'ml-matrix';
 import { StatsInputError } from './errors';
-import { LineStep, type LineStepWork, type RobustNorm } from './norms';
+import { LineFinal, LineStep, type LineStepWork, type RobustNorm } from './norms';
 import { validateFinite } from './validate';
 
 /**
@@ -38,12 +38,26 @@ export interface LinearDesign {
     irls: Float64Array,
     newton: Float64Array | null,
   ): number;
+  /**
+   * What an M-estimate reports per sample at its final β and scale s, with u = r/s: the weights w(u), the hat values of
+   * W^½X, and the sums Σψ(u)², Σψ′(u), Σψ′(u)² of its sandwich covariance. For the line: two passes over the data.
+   */
+  mFinal(y: Float64Array, beta: Float64Array, norm: RobustNorm, scale: number): MFinal;
   /** (X'WX)⁻¹ as a p × p array; `weights` null means all 1. */
   crossProductInverse(weights: Float64Array | null): number[][];
   /** Diagonal of the hat matrix of W^½X: hᵢ = wᵢ xᵢ'(X'WX)⁻¹xᵢ; `weights` null means all 1. A plain array, as results carry it. */
   hatDiagonal(weights: Float64Array | null): number[];
   /** The design made of the given rows only, in that order (repeats allowed, as in a bootstrap resample). */
   select(rows: ArrayLike<number>): LinearDesign;
+}
+
+/** LinearDesign.mFinal's result. */
+export interface MFinal {
+  weights: number[];
+  hat: number[];
+  sumPsiSquared: number;
+  sumPsiDeriv: number;
+  sumPsiDerivSquared: number;
 }
 
 /**
@@ -341,6 +355,27 @@ class LineDesign implements LinearDesign {
     return middleInBand(band, count, below, n);
   }
 
+  mFinal(y: Float64Array, beta: Float64Array, norm: RobustNorm, scale: number): MFinal {
+    const { xs, n, shiftX } = this;
+    const step = this.stepWork;
+    step.y = y;
+    const weights = new Array<number>(n);
+    norm.lineFinal(step, beta[0], beta[1], scale, weights);
+    const { sums } = step;
+    // the hat values of W^½X from the weighted moments of the same pass
+    const sumW = sums[LineFinal.w];
+    const meanX = shiftX + sums[LineFinal.wd] / sumW;
+    const sxx = sums[LineFinal.wdd] - (sums[LineFinal.wd] * sums[LineFinal.wd]) / sumW;
+    if (!(sumW > 0) || !(sxx > 1e-14 * sums[LineFinal.wdd])) singularLine();
+    const hat = new Array<number>(n);
+    const inverseSumW = 1 / sumW;
+    for (let i = 0; i < n; i++) {
+      const d = xs[i] - meanX;
+      hat[i] = weights[i] * (inverseSumW + (d * d) / sxx);
+    }
+    return { weights, hat, sumPsiSquared: sums[LineFinal.psi2], sumPsiDeriv: sums[LineFinal.dpsi], sumPsiDerivSquared: sums[LineFinal.dpsi2] };
+  }
+
   crossProductInverse(weights: Float64Array | null): number[][] {
     const { sumW, meanX, sxx } = this.moments(weights);
     return [
@@ -525,6 +560,24 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
       const taken = newtonStep !== null && radius < 1;
       for (let j = 0; j < p; j++) newton[j] = taken ? beta[j] + newtonStep[j] : Number.NaN;
       return s;
+    },
+    mFinal(y, beta, norm, scale) {
+      const residuals = new Float64Array(n);
+      this.residuals(y, beta, residuals);
+      const weights = new Float64Array(n);
+      norm.weights(residuals, scale, weights);
+      let sumPsiSquared = 0;
+      let sumPsiDeriv = 0;
+      let sumPsiDerivSquared = 0;
+      for (let i = 0; i < n; i++) {
+        const u = residuals[i] / scale;
+        const psi = norm.psi(u);
+        const deriv = norm.psiDeriv(u);
+        sumPsiSquared += psi * psi;
+        sumPsiDeriv += deriv;
+        sumPsiDerivSquared += deriv * deriv;
+      }
+      return { weights: toArray(weights), hat: this.hatDiagonal(weights), sumPsiSquared, sumPsiDeriv, sumPsiDerivSquared };
     },
     crossProductInverse: (weights) => crossProductInverseMatrix(weights).to2DArray(),
     hatDiagonal(weights) {

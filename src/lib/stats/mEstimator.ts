@@ -1,7 +1,7 @@
 import { relativeChange } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, mStepWork, toArray, type LinearDesign, type MStepWork } from './linear';
+import { createDesign, createLineDesign, mStepWork, toArray, type LinearDesign, type MFinal, type MStepWork } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
 import { checkedSEstimate, sEstimateOnDesign, type SEstimate } from './sEstimator';
@@ -49,47 +49,29 @@ export interface MEstimate {
   weights: number[];
   /** Diagonal of the hat matrix of W^½X at the final weights. */
   hat: number[];
-  /** y − Xβ at the final coefficients (a typed array: the line fits do not pass it on). */
-  residuals: Float64Array;
 }
 
 /**
  * Huber's sandwich covariance of an M-estimate, the "H1" form of statsmodels RLM
  * (Huber, Robust Statistics 1981, §7.6): with u = r/s, m = mean ψ′(u) and K = 1 + (p/n)·Var ψ′(u)/m²,
- * Cov(β̂) = K² · [Σψ(u)²/(n − p)] · s² / m² · (X'X)⁻¹.
+ * Cov(β̂) = K² · [Σψ(u)²/(n − p)] · s² / m² · (X'X)⁻¹, from the sums of LinearDesign.mFinal.
  *
  * @example
- * sandwichCovariance(createLineDesign([1, 2, 3, 4]), Float64Array.from([0.1, -0.2, 0.2, -0.1]), 0.2, huberNorm());
+ * const design = createLineDesign(x);
+ * sandwichCovariance(design, design.mFinal(y, beta, huberNorm(), scale), scale, huberNorm());
  */
-export function sandwichCovariance(
-  design: LinearDesign,
-  residuals: Float64Array,
-  scale: number,
-  norm: RobustNorm,
-): number[][] {
+export function sandwichCovariance(design: LinearDesign, final: MFinal, scale: number, norm: RobustNorm): number[][] {
   const { n, p } = design;
-  let sumPsi2 = 0;
-  let sumDeriv = 0;
-  let sumDeriv2 = 0;
-  const inverseScale = 1 / scale;
-  for (let i = 0; i < n; i++) {
-    const u = residuals[i] * inverseScale;
-    const psi = norm.psi(u);
-    const deriv = norm.psiDeriv(u);
-    sumPsi2 += psi * psi;
-    sumDeriv += deriv;
-    sumDeriv2 += deriv * deriv;
-  }
-  const meanDeriv = sumDeriv / n;
+  const meanDeriv = final.sumPsiDeriv / n;
   if (!(meanDeriv > 0)) {
     throw new StatsInputError(
       `the sandwich covariance is undefined: the mean of ψ′ over the standardized residuals is ${meanDeriv} (too few samples inside the ${norm.name} tuning range)`,
       { field: 'y' },
     );
   }
-  const varDeriv = sumDeriv2 / n - meanDeriv * meanDeriv;
+  const varDeriv = final.sumPsiDerivSquared / n - meanDeriv * meanDeriv;
   const k = 1 + (p / n) * (varDeriv / (meanDeriv * meanDeriv));
-  const factor = (k * k * (sumPsi2 / (n - p)) * scale * scale) / (meanDeriv * meanDeriv);
+  const factor = (k * k * (final.sumPsiSquared / (n - p)) * scale * scale) / (meanDeriv * meanDeriv);
   return design.crossProductInverse(null).map((row) => row.map((v) => v * factor));
 }
 
@@ -262,13 +244,8 @@ export function mEstimateOnDesign(
   const { n, p } = design;
   const start = startingPoint(design, y, norm, opts.start, seed, opts.sEstimate);
   const { beta, scale, iterations, converged } = irlsOnDesign(design, y, norm, start.beta, { fixedScale, tolerance, maxIterations, accelerate });
-  // the final fit's own residuals and their weights at the final scale
-  const residuals = new Float64Array(n);
-  const weights = new Float64Array(n);
-  design.residuals(y, beta, residuals);
-  norm.weights(residuals, scale, weights);
-
-  const covariance = sandwichCovariance(design, residuals, scale, norm);
+  const final = design.mFinal(y, beta, norm, scale);
+  const covariance = sandwichCovariance(design, final, scale, norm);
   const standardErrors = covariance.map((row, j) => Math.sqrt(row[j]));
   const df = n - p;
   const t = tQuantile(1 - (1 - confidence) / 2, df);
@@ -284,9 +261,8 @@ export function mEstimateOnDesign(
     iterations,
     converged,
     start: opts.startKind ?? start.kind,
-    weights: toArray(weights),
-    hat: design.hatDiagonal(weights),
-    residuals,
+    weights: final.weights,
+    hat: final.hat,
   };
 }
 

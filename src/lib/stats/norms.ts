@@ -22,6 +22,12 @@ export interface RobustNorm {
    * Σψ′·r, Σψ′·r·d, into work.sums (layout LineStep).
    */
   lineStep(work: LineStepWork, a: number, b: number, scale: number): void;
+  /**
+   * The final pass of a straight line's M-estimate at (a, b) with scale s (LinearDesign.mFinal): w(rᵢ/s) into
+   * `weights`, and with d = x − centre, u = r/s, the sums Σw, Σw·d, Σw·d², Σψ(u)², Σψ′(u), Σψ′(u)² into work.sums
+   * (layout LineFinal).
+   */
+  lineFinal(work: LineStepWork, a: number, b: number, scale: number, weights: number[]): void;
 }
 
 /** What RobustNorm.lineStep reads (x, its centre, y) and writes (`sums`). */
@@ -34,6 +40,19 @@ export interface LineStepWork {
 
 /** Positions in LineStepWork.sums: the cross-products of [1, x − centre] and of the residuals with w and with ψ′. */
 export const LineStep = { w: 0, wd: 1, wdd: 2, wr: 3, wrd: 4, dpsi: 5, dpsiD: 6, dpsiDD: 7, dpsiR: 8, dpsiRD: 9, size: 10 } as const;
+
+/** Positions in LineStepWork.sums after RobustNorm.lineFinal: the weighted moments of x − centre, then the sandwich's sums. */
+export const LineFinal = { w: 0, wd: 1, wdd: 2, psi2: 3, dpsi: 4, dpsi2: 5 } as const;
+
+/** Stores the sums of a final pass (each family's lineFinal ends with this). */
+function storeLineFinal(sums: Float64Array, w: number, wd: number, wdd: number, psi2: number, dpsi: number, dpsi2: number): void {
+  sums[0] = w;
+  sums[1] = wd;
+  sums[2] = wdd;
+  sums[3] = psi2;
+  sums[4] = dpsi;
+  sums[5] = dpsi2;
+}
 
 /** Stores the sums of a line step (each family's lineStep ends with this). */
 function storeLineStep(
@@ -104,6 +123,33 @@ class LeastSquaresNorm implements RobustNorm {
     const n = xs.length;
     storeLineStep(work.sums, n, sd, sdd, sr, srd, n, sd, sdd, sr, srd);
   }
+
+  lineFinal(work: LineStepWork, a: number, b: number, scale: number, weights: number[]): void {
+    const { xs, centre, y } = work;
+    let sw = 0;
+    let swd = 0;
+    let swdd = 0;
+    let psi2 = 0;
+    let sp = 0;
+    let sp2 = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const w = 1;
+      const p = 1;
+      const wd = w * d;
+      weights[i] = w;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      psi2 += w * r * (w * r);
+      sp += p;
+      sp2 += p * p;
+    }
+    const inverseScale2 = 1 / (scale * scale); // ψ(u) = w·r/s
+    storeLineFinal(work.sums, sw, swd, swdd, psi2 * inverseScale2, sp, sp2);
+  }
+
 }
 
 class HuberNorm implements RobustNorm {
@@ -164,6 +210,36 @@ class HuberNorm implements RobustNorm {
     }
     storeLineStep(work.sums, sw + sp, swd + spd, swdd + spdd, swr + spr, swrd + sprd, sp, spd, spdd, spr, sprd);
   }
+
+  lineFinal(work: LineStepWork, a: number, b: number, scale: number, weights: number[]): void {
+    const limit = this.t * scale;
+    const { xs, centre, y } = work;
+    let sw = 0;
+    let swd = 0;
+    let swdd = 0;
+    let psi2 = 0;
+    let sp = 0;
+    let sp2 = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const size = Math.abs(r);
+      const inside = size <= limit;
+      const w = inside ? 1 : limit / size;
+      const p = inside ? 1 : 0;
+      const wd = w * d;
+      weights[i] = w;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      psi2 += w * r * (w * r);
+      sp += p;
+      sp2 += p * p;
+    }
+    const inverseScale2 = 1 / (scale * scale); // ψ(u) = w·r/s
+    storeLineFinal(work.sums, sw, swd, swdd, psi2 * inverseScale2, sp, sp2);
+  }
+
 }
 
 class TukeyBisquareNorm implements RobustNorm {
@@ -230,6 +306,36 @@ class TukeyBisquareNorm implements RobustNorm {
     }
     storeLineStep(work.sums, sw, swd, swdd, swr, swrd, sp, spd, spdd, spr, sprd);
   }
+
+  lineFinal(work: LineStepWork, a: number, b: number, scale: number, weights: number[]): void {
+    const q = 1 / (this.c * scale);
+    const { xs, centre, y } = work;
+    let sw = 0;
+    let swd = 0;
+    let swdd = 0;
+    let psi2 = 0;
+    let sp = 0;
+    let sp2 = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const z2 = r * q * (r * q);
+      const v = z2 < 1 ? 1 - z2 : 0;
+      const w = v * v;
+      const p = v * (1 - 5 * z2);
+      const wd = w * d;
+      weights[i] = w;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      psi2 += w * r * (w * r);
+      sp += p;
+      sp2 += p * p;
+    }
+    const inverseScale2 = 1 / (scale * scale); // ψ(u) = w·r/s
+    storeLineFinal(work.sums, sw, swd, swdd, psi2 * inverseScale2, sp, sp2);
+  }
+
 }
 
 class HampelNorm implements RobustNorm {
@@ -319,6 +425,38 @@ class HampelNorm implements RobustNorm {
     }
     storeLineStep(work.sums, sw, swd, swdd, swr, swrd, sp, spd, spdd, spr, sprd);
   }
+
+  lineFinal(work: LineStepWork, a: number, b: number, scale: number, weights: number[]): void {
+    const ra = this.a * scale;
+    const rb = this.b * scale;
+    const rc = this.c * scale;
+    const { slope } = this;
+    const { xs, centre, y } = work;
+    let sw = 0;
+    let swd = 0;
+    let swdd = 0;
+    let psi2 = 0;
+    let sp = 0;
+    let sp2 = 0;
+    for (let i = 0; i < xs.length; i++) {
+      const r = y[i] - a - b * xs[i];
+      const d = xs[i] - centre;
+      const size = Math.abs(r);
+      const w = size <= ra ? 1 : size <= rb ? ra / size : size <= rc ? (slope * (rc - size)) / size : 0;
+      const p = size <= ra ? 1 : size > rb && size <= rc ? -slope : 0;
+      const wd = w * d;
+      weights[i] = w;
+      sw += w;
+      swd += wd;
+      swdd += wd * d;
+      psi2 += w * r * (w * r);
+      sp += p;
+      sp2 += p * p;
+    }
+    const inverseScale2 = 1 / (scale * scale); // ψ(u) = w·r/s
+    storeLineFinal(work.sums, sw, swd, swdd, psi2 * inverseScale2, sp, sp2);
+  }
+
 }
 
 /**

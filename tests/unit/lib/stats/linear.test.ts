@@ -109,6 +109,19 @@ describe('mStep', () => {
         }
       });
 
+      it(`${name} design, ${norm.name}: the final pass gives the scalar weights, the hat values of W^½X and the sandwich's sums`, () => {
+        const r = residualsAt(design, beta);
+        const s = madScale(r, new Float64Array(x.length));
+        const final = design.mFinal(y, beta, norm, s);
+        const weights = Float64Array.from(r, (v) => norm.weight(v / s));
+        final.weights.forEach((w, i) => expect(w).toBeCloseTo(weights[i], 12));
+        const hat = createDesign(rows.map((row) => row.map((v, j) => (j === 0 ? 2 : v)))).hatDiagonal(weights); // the QR path: a column of 2s
+        final.hat.forEach((h, i) => expect(h).toBeCloseTo(hat[i], 10));
+        expect(final.sumPsiSquared).toBeCloseTo(r.reduce((sum, v) => sum + norm.psi(v / s) ** 2, 0), 9);
+        expect(final.sumPsiDeriv).toBeCloseTo(r.reduce((sum, v) => sum + norm.psiDeriv(v / s), 0), 9);
+        expect(final.sumPsiDerivSquared).toBeCloseTo(r.reduce((sum, v) => sum + norm.psiDeriv(v / s) ** 2, 0), 9);
+      });
+
       it(`${name} design, ${norm.name}: steps that share their work space find the same scale as fresh ones`, () => {
         // a path of small steps (the last band is reused, narrowed), then a jump (the band is gathered anew)
         const work = mStepWork(x.length);

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
 import {
   hampelNorm,
+  LineFinal,
   LineStep,
   huberNorm,
   leastSquaresNorm,
@@ -135,6 +136,34 @@ describe('the line-step sums', () => {
           terms.forEach((t, k) => (expected[k] += t));
         });
         expected.forEach((v, k) => expect(work.sums[k]).toBeCloseTo(v, 9));
+      }
+    });
+  }
+});
+
+describe('the line final pass', () => {
+  const residuals = [0, 0.3, -0.9, 1.2, -2.5, 3.1, -4.2, 5.5, -6.8, 7.9, -9.5, 14, -40];
+  const xs = Float64Array.from(residuals, (_, i) => 10 + 3 * i);
+  const [a, b] = [1.5, 0.8];
+  const y = Float64Array.from(residuals, (r, i) => a + b * xs[i] + r);
+  const families = [leastSquaresNorm(), huberNorm(), huberNorm(2), tukeyBisquareNorm(), tukeyBisquareNorm(3), hampelNorm(), hampelNorm(1.5, 3.5, 8)];
+  for (const norm of families) {
+    it(`${norm.name} ${norm.tuning.join(', ')}: weights, weighted moments and the sandwich's sums equal the scalar forms`, () => {
+      for (const scale of [0.7, 1, 2.3]) {
+        const centre = 25;
+        const work = { xs, centre, y, sums: new Float64Array(LineStep.size) };
+        const weights = new Array<number>(residuals.length);
+        norm.lineFinal(work, a, b, scale, weights);
+        const expected = [0, 0, 0, 0, 0, 0];
+        residuals.forEach((r, i) => {
+          const d = xs[i] - centre;
+          const u = r / scale;
+          const w = norm.weight(u);
+          expect(weights[i]).toBeCloseTo(w, 12);
+          const terms = [w, w * d, w * d * d, norm.psi(u) ** 2, norm.psiDeriv(u), norm.psiDeriv(u) ** 2];
+          terms.forEach((t, k) => (expected[k] += t));
+        });
+        expected.forEach((v, k) => expect(work.sums[LineFinal[(['w', 'wd', 'wdd', 'psi2', 'dpsi', 'dpsi2'] as const)[k]]]).toBeCloseTo(v, 9));
       }
     });
   }

@@ -403,17 +403,17 @@ class LineDesign implements LinearDesign {
   }
 
   private moments(weights: Float64Array | null): LineMoments {
-    if (weights === null) return this.unweighted ?? (this.unweighted = this.weightedMoments(new Float64Array(this.n).fill(1)));
+    if (weights === null) return this.unweighted ?? (this.unweighted = this.weightedMoments(null));
     return this.weightedMoments(weights);
   }
 
-  private weightedMoments(weights: Float64Array): LineMoments {
+  private weightedMoments(weights: Float64Array | null): LineMoments {
     const { xs, shiftX, n } = this;
     let sumW = 0;
     let sumX = 0;
     let sumXX = 0;
     for (let i = 0; i < n; i++) {
-      const w = weights[i];
+      const w = weights === null ? 1 : weights[i];
       const dx = xs[i] - shiftX;
       sumW += w;
       sumX += w * dx;

@@ -132,8 +132,9 @@ export interface IrlsOptions {
  * Relative IRLS step ‖Δβ‖/‖β‖ at or below which irlsOnDesign tries Newton updates. Far from the solution only plain
  * steps are taken, so that a long Newton step cannot carry a fit from the basin its start lies in to another solution
  * (redescending ρ, or the MAD re-estimated every iteration, can have several); near it both lead to the same point.
+ * With the other safeguards of irlsOnDesign, 3e-2 kept every fit of the tests on plain IRLS's solution; 1e-1 did not.
  */
-export const NEWTON_BELOW = 1e-2;
+export const NEWTON_BELOW = 3e-2;
 
 /**
  * The IRLS iteration (Holland & Welsch, Commun Stat 1977): from β, residuals r = y − Xβ, the scale

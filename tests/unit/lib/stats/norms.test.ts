@@ -114,17 +114,17 @@ describe('the weights array form', () => {
   }
 });
 
-describe('the line-step sums', () => {
+describe('the line passes', () => {
   // residuals across every piece of every family (as above), on x values around a centre
   const residuals = [0, 0.3, -0.9, 1.2, -2.5, 3.1, -4.2, 5.5, -6.8, 7.9, -9.5, 14, -40];
   const xs = Float64Array.from(residuals, (_, i) => 10 + 3 * i);
   const [a, b] = [1.5, 0.8];
   const y = Float64Array.from(residuals, (r, i) => a + b * xs[i] + r);
   const families = [leastSquaresNorm(), huberNorm(), huberNorm(2), tukeyBisquareNorm(), tukeyBisquareNorm(3), hampelNorm(), hampelNorm(1.5, 3.5, 8)];
+  const centre = 25;
   for (const norm of families) {
     it(`${norm.name} ${norm.tuning.join(', ')}: the sums of w and ψ′ times 1, d, d², r, r·d equal those from the scalar forms`, () => {
       for (const scale of [0.7, 1, 2.3]) {
-        const centre = 25;
         const work = { xs, centre, y, sums: new Float64Array(LineStep.size) };
         norm.lineStep(work, a, b, scale);
         const expected = new Array<number>(LineStep.size).fill(0);
@@ -139,18 +139,9 @@ describe('the line-step sums', () => {
       }
     });
   }
-});
-
-describe('the line final pass', () => {
-  const residuals = [0, 0.3, -0.9, 1.2, -2.5, 3.1, -4.2, 5.5, -6.8, 7.9, -9.5, 14, -40];
-  const xs = Float64Array.from(residuals, (_, i) => 10 + 3 * i);
-  const [a, b] = [1.5, 0.8];
-  const y = Float64Array.from(residuals, (r, i) => a + b * xs[i] + r);
-  const families = [leastSquaresNorm(), huberNorm(), huberNorm(2), tukeyBisquareNorm(), tukeyBisquareNorm(3), hampelNorm(), hampelNorm(1.5, 3.5, 8)];
   for (const norm of families) {
     it(`${norm.name} ${norm.tuning.join(', ')}: weights, weighted moments and the sandwich's sums equal the scalar forms`, () => {
       for (const scale of [0.7, 1, 2.3]) {
-        const centre = 25;
         const work = { xs, centre, y, sums: new Float64Array(LineStep.size) };
         const weights = new Array<number>(residuals.length);
         norm.lineFinal(work, a, b, scale, weights);

@@ -2,7 +2,7 @@ import { bootstrapIntervals, type BootstrapMethod } from './bootstrap';
 import { StatsInputError } from './errors';
 import { ladLine } from './lad';
 import { lineBias } from './lineBias';
-import { createLineDesign, mStepWork } from './linear';
+import { createLineDesign, MStepWork } from './linear';
 import { irlsOnDesign } from './mEstimator';
 import { normByKey, tukeyBisquareNorm, type MNormKey, type RobustNorm } from './norms';
 import { meanResponseInterval } from './ols';
@@ -144,7 +144,7 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
   const n = x.length;
   const full = createLineDesign(x);
   const ys = new Float64Array(n);
-  const work = mStepWork(n);
+  const work = new MStepWork(n);
   return (indices) => {
     const size = indices.length;
     const ry = size === n ? ys : ys.subarray(0, size);

@@ -64,6 +64,10 @@ export interface MFinal {
  * Work space of LinearDesign.mStep, of at least n entries each; lent so that repeated fits allocate nothing. It also
  * keeps the band of residuals the last MAD was found in, so that the next one, a small step away, looks only there:
  * call `forget` before it serves other data.
+ *
+ * @example
+ * const work = new MStepWork(x.length);
+ * design.mStep(y, beta, huberNorm(), { previous: 0 }, work, irls, null);
  */
 export class MStepWork {
   readonly band: Float64Array;
@@ -83,16 +87,6 @@ export class MStepWork {
   forget(): void {
     this.last.count = -1;
   }
-}
-
-/**
- * Work space for LinearDesign.mStep on n samples.
- *
- * @example
- * const work = mStepWork(x.length);
- */
-export function mStepWork(n: number): MStepWork {
-  return new MStepWork(n);
 }
 
 /**

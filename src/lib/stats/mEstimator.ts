@@ -1,7 +1,7 @@
 import { relativeChange } from './acceleration';
 import { tQuantile } from './distributions';
 import { StatsInputError } from './errors';
-import { createDesign, createLineDesign, mStepWork, toArray, type LinearDesign, type MFinal, type MStepWork } from './linear';
+import { createDesign, createLineDesign, MStepWork, toArray, type LinearDesign, type MFinal } from './linear';
 import { normByKey, type MNormKey, type RobustNorm } from './norms';
 import { validateResponse } from './ols';
 import { checkedSEstimate, sEstimateOnDesign, type SEstimate } from './sEstimator';
@@ -147,7 +147,7 @@ export const NEWTON_BELOW = 3e-2;
  * IRLS contracts. A Newton step more than NEWTON_STRETCH times the plain one is not taken, and a Newton point whose own
  * IRLS step is not at most NEWTON_GAIN times the last one (or cannot be taken) is dropped for the plain update, after
  * which Newton waits until the plain steps are ten times shorter. The stopping rule is always measured on a plain IRLS
- * step, so the result is a fixed point of plain IRLS, and the one plain IRLS reaches from the same start.
+ * step, so the result is a fixed point of plain IRLS (in the tests, always the one plain IRLS reaches from the same start).
  *
  * @example
  * irlsOnDesign(createLineDesign(x), new Float64Array(y), huberNorm(), Float64Array.of(0, 1), { tolerance: 1e-10, maxIterations: 200 }).beta;
@@ -155,7 +155,7 @@ export const NEWTON_BELOW = 3e-2;
 export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: RobustNorm, start: Float64Array, options: IrlsOptions): IrlsResult {
   const { tolerance, maxIterations } = options;
   const { n, p } = design;
-  const work = options.buffers ?? mStepWork(n);
+  const work = options.buffers ?? new MStepWork(n);
   work.forget(); // lent work space may hold another fit's band
   const scale = { fixed: options.fixedScale, previous: options.scaleHint ?? 0 };
   const irls = new Float64Array(p);

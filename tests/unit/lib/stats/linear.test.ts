@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { StatsInputError } from '../../../../src/lib/stats/errors';
-import { createDesign, createLineDesign, lineDesignMatrix, madScale, medianAbs, mStepWork, selectKth, type LinearDesign } from '../../../../src/lib/stats/linear';
+import { createDesign, createLineDesign, lineDesignMatrix, madScale, medianAbs, MStepWork, selectKth, type LinearDesign } from '../../../../src/lib/stats/linear';
 import { hampelNorm, huberNorm, tukeyBisquareNorm, type RobustNorm } from '../../../../src/lib/stats/norms';
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { seededRandom } from '../../../../src/lib/stats/random';
@@ -104,7 +104,7 @@ describe('mStep', () => {
         // no previous scale, a close one, and one far off (the band misses the median and the full selection runs)
         for (const previous of [0, mad * 1.02, mad * 5]) {
           const irls = new Float64Array(design.p);
-          expect(design.mStep(y, beta, norm, { previous }, mStepWork(x.length), irls, null)).toBe(mad);
+          expect(design.mStep(y, beta, norm, { previous }, new MStepWork(x.length), irls, null)).toBe(mad);
           irls.forEach((v, j) => expect(v).toBeCloseTo(expected[j], 9));
         }
       });
@@ -124,7 +124,7 @@ describe('mStep', () => {
 
       it(`${name} design, ${norm.name}: steps that share their work space find the same scale as fresh ones`, () => {
         // a path of small steps (the last band is reused, narrowed), then a jump (the band is gathered anew)
-        const work = mStepWork(x.length);
+        const work = new MStepWork(x.length);
         const path = [0, 1e-6, 3e-6, 1e-5, 1e-4, 1e-3, 0.3].map((t) => Float64Array.from(beta, (v, j) => v + t * (j === 0 ? 1 : 0.01)));
         let previous = 0;
         for (const at of path) {
@@ -137,7 +137,7 @@ describe('mStep', () => {
       it(`${name} design, ${norm.name}: the Newton update solves the linearised equations, and is withheld only where plain IRLS barely contracts`, () => {
         for (const fixed of [undefined, 1.3]) {
           const newton = new Float64Array(design.p);
-          design.mStep(y, beta, norm, { fixed, previous: 0 }, mStepWork(x.length), new Float64Array(design.p), newton);
+          design.mStep(y, beta, norm, { fixed, previous: 0 }, new MStepWork(x.length), new Float64Array(design.p), newton);
           // central differences (the MAD is linear in β between switches of its median residuals; h stays inside)
           const jacobian = (map: (at: Float64Array) => number[]) =>
             Array.from({ length: design.p }, (_, k) => {
@@ -152,7 +152,7 @@ describe('mStep', () => {
             });
           const irlsUpdate = (at: Float64Array) => {
             const out = new Float64Array(design.p);
-            design.mStep(y, at, norm, { fixed, previous: 0 }, mStepWork(x.length), out, null);
+            design.mStep(y, at, norm, { fixed, previous: 0 }, new MStepWork(x.length), out, null);
             return Array.from(out);
           };
           const columns = jacobian(irlsUpdate);

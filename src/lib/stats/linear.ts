@@ -49,6 +49,8 @@ export interface LinearDesign {
   hatDiagonal(weights: Float64Array | null): number[];
   /** The design made of the given rows only, in that order (repeats allowed, as in a bootstrap resample). */
   select(rows: ArrayLike<number>): LinearDesign;
+  /** Column j of X, as a new array. */
+  column(j: number): Float64Array;
 }
 
 /** LinearDesign.mFinal's result. */
@@ -396,6 +398,10 @@ class LineDesign implements LinearDesign {
     return new LineDesign(xs);
   }
 
+  column(j: number): Float64Array {
+    return j === 0 ? new Float64Array(this.n).fill(1) : this.xs.slice();
+  }
+
   private moments(weights: Float64Array | null): LineMoments {
     if (weights === null) return this.unweighted ?? (this.unweighted = this.weightedMoments(null));
     return this.weightedMoments(weights);
@@ -586,6 +592,7 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
       return hat;
     },
     select: (subset) => createDesign(Array.from(subset, (i) => rows[i])),
+    column: (j) => Float64Array.from(rows, (row) => row[j]),
   };
 }
 

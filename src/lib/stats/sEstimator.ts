@@ -357,22 +357,13 @@ class DesignKernel implements SearchKernel {
   }
 }
 
-/** Column j of X, read through the design: y − Xβ with y = 0 and β = −eⱼ. */
-function designColumn(design: LinearDesign, j: number): Float64Array {
-  const beta = new Float64Array(design.p);
-  beta[j] = -1;
-  const column = new Float64Array(design.n);
-  design.residuals(new Float64Array(design.n), beta, column);
-  return column;
-}
-
 /** The closed-form line kernel when X is [1, x], whatever design holds it; the design's own operations otherwise. */
 function searchKernel(design: LinearDesign, y: Float64Array): SearchKernel {
   if (design.p === 2) {
-    const first = designColumn(design, 0);
+    const first = design.column(0);
     let intercept = true;
     for (let i = 0; i < first.length; i++) if (first[i] !== 1) intercept = false;
-    if (intercept) return new LineKernel(designColumn(design, 1), y);
+    if (intercept) return new LineKernel(design.column(1), y);
   }
   return new DesignKernel(design, y);
 }

@@ -53,6 +53,13 @@ describe('line design against the general QR design', () => {
     expect(a.reduce((s, h) => s + h, 0)).toBeCloseTo(2, 10);
   });
 
+  it('columns agree (swapped) and are those of X', () => {
+    expect(Array.from(line.column(0))).toEqual(Array.from(general.column(1)));
+    expect(Array.from(line.column(1))).toEqual(Array.from(general.column(0)));
+    expect(Array.from(line.column(1))).toEqual(x);
+    expect(line.column(0).every((v) => v === 1)).toBe(true);
+  });
+
   it('createDesign recognises [1, x] rows and takes the line path', () => {
     const design = createDesign(lineDesignMatrix(x));
     const a = design.solveWeighted(yy, weights);

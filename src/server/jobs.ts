@@ -30,13 +30,17 @@ export function defineJobHandler(kind: string, handler: JobHandler) {
 
 let boss: Promise<PgBoss> | undefined;
 
+/** The started queue of this process; a start that failed (the database was away) is tried again on the next call. */
 function queue(): Promise<PgBoss> {
   boss ??= (async () => {
     const instance = new PgBoss({ connectionString: DATABASE_URL, schema: 'pgboss', max: 4, maintenanceIntervalSeconds: MAINTENANCE_SECONDS });
     instance.on('error', (error) => console.error('job queue:', error));
     await instance.start();
     return instance;
-  })();
+  })().catch((error: unknown) => {
+    boss = undefined;
+    throw error;
+  });
   return boss;
 }
 
@@ -59,13 +63,19 @@ export async function enqueueJob(input: {
       message: input.message ?? 'Waiting to start',
     })
     .returning();
-  const q = await queue();
-  await q.createQueue(input.kind);
-  await q.send(input.kind, { jobId: row.id }, {
-    retryLimit: JOB_POLICY.retryLimit,
-    retryDelay: JOB_POLICY.retryDelaySeconds,
-    expireInSeconds: JOB_POLICY.expireInSeconds,
-  });
+  try {
+    const q = await queue();
+    await q.createQueue(input.kind);
+    await q.send(input.kind, { jobId: row.id }, {
+      retryLimit: JOB_POLICY.retryLimit,
+      retryDelay: JOB_POLICY.retryDelaySeconds,
+      expireInSeconds: JOB_POLICY.expireInSeconds,
+    });
+  } catch (error) {
+    // not queued: remove the row, so that nobody waits for a job that will never run (if the database answers now)
+    await getDb().delete(jobs).where(eq(jobs.id, row.id)).catch(() => undefined);
+    throw error;
+  }
   return row;
 }
 
@@ -108,7 +118,10 @@ export function startWorkers(): Promise<void> {
       await q.createQueue(kind);
       await q.work<{ jobId: string }>(kind, { pollingIntervalSeconds: 0.5 }, async ([job]) => runJob(job.data.jobId, handler));
     }
-  })();
+  })().catch((error: unknown) => {
+    started = undefined; // the next request tries again (workers.ts)
+    throw error;
+  });
   return started;
 }
 

@@ -89,6 +89,17 @@ export class MStepWork {
   forget(): void {
     this.last.count = -1;
   }
+
+  /** Records the band just gathered at the fit (a, b): its bounds, how many |r| are in it and how many below. */
+  keepBand(a: number, b: number, low: number, high: number, count: number, below: number): void {
+    const { last } = this;
+    last.a = a;
+    last.b = b;
+    last.low = low;
+    last.high = high;
+    last.count = count;
+    last.below = below;
+  }
 }
 
 /**
@@ -295,7 +306,7 @@ class LineDesign implements LinearDesign {
           }
         }
         found = middleInBand(band, m, below, n);
-        Object.assign(last, { a, b, low, high, count: m, below });
+        work.keepBand(a, b, low, high, m, below);
       }
     }
     if (!found) found = this.gatherNear(y, a, b, work, near);
@@ -346,9 +357,8 @@ class LineDesign implements LinearDesign {
     const low = guess * (1 - width);
     const high = guess * (1 + width);
     gatherBand(y, xs, a, b, low, high, band, bandIndex);
-    const [count, below] = BAND_COUNTS;
-    Object.assign(work.last, { a, b, low, high, count, below });
-    return middleInBand(band, count, below, n);
+    work.keepBand(a, b, low, high, BAND_COUNTS[0], BAND_COUNTS[1]);
+    return middleInBand(band, BAND_COUNTS[0], BAND_COUNTS[1], n);
   }
 
   mFinal(y: Float64Array, beta: Float64Array, norm: RobustNorm, scale: number): MFinal {

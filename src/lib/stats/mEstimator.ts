@@ -167,13 +167,16 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
     scale.previous = design.mStep(y, beta, norm, scale, work, irls, accelerate ? newton : null);
     return relativeChange(beta, irls);
   };
-  let beta = start;
+  // three points in turn: where the last step was evaluated, its plain update, and the point evaluated next
+  let beta = Float64Array.from(start);
+  let plain = new Float64Array(p);
+  let candidate = new Float64Array(p);
   let size = evaluate(beta);
   let iterations = 1;
   while (size > tolerance && iterations < maxIterations) {
     const tryNewton = size <= newtonBelow && newtonStepWithin(beta, newton, NEWTON_STRETCH * size);
-    const plain = irls.slice();
-    const candidate = tryNewton ? newton.slice() : plain;
+    plain.set(irls);
+    candidate.set(tryNewton ? newton : irls);
     const lastScale = scale.previous;
     const candidateSize = tryNewton ? sizeOrInfinity(evaluate, candidate) : evaluate(candidate);
     iterations++;
@@ -181,11 +184,11 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
       // not in Newton's region yet: the plain update instead, and no Newton again until the steps are 10× shorter
       newtonBelow = size / 10;
       scale.previous = lastScale;
-      beta = plain;
+      [beta, plain] = [plain, beta];
       size = evaluate(beta);
       iterations++;
     } else {
-      beta = candidate;
+      [beta, candidate] = [candidate, beta];
       size = candidateSize;
     }
   }
@@ -206,7 +209,8 @@ const NEWTON_GAIN = 0.5;
 
 /** Whether the Newton update is finite and its relative change from β is at most `limit`. */
 function newtonStepWithin(beta: Float64Array, newton: Float64Array, limit: number): boolean {
-  return newton.every(Number.isFinite) && relativeChange(beta, newton) <= limit;
+  for (let j = 0; j < newton.length; j++) if (!Number.isFinite(newton[j])) return false;
+  return relativeChange(beta, newton) <= limit;
 }
 
 /** The IRLS step from a Newton point, or Infinity when none can be taken there (e.g. every weight on one x). */

@@ -288,7 +288,8 @@ class TukeyBisquareNorm implements RobustNorm {
       const d = xs[i] - centre;
       const z = r * q;
       const z2 = z * z;
-      const v = z2 < 1 ? 1 - z2 : 0; // w = v², ψ′ = v·(1 − 5z²), both 0 beyond c
+      const t = 1 - z2;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − z², 0) without a branch; w = v², ψ′ = v·(1 − 5z²), both 0 beyond c
       const w = v * v;
       const p = v * (1 - 5 * z2);
       const wd = w * d;
@@ -320,7 +321,8 @@ class TukeyBisquareNorm implements RobustNorm {
       const r = y[i] - a - b * xs[i];
       const d = xs[i] - centre;
       const z2 = r * q * (r * q);
-      const v = z2 < 1 ? 1 - z2 : 0;
+      const t = 1 - z2;
+      const v = 0.5 * (t + Math.abs(t)); // max(1 − z², 0) without a branch
       const w = v * v;
       const p = v * (1 - 5 * z2);
       const wd = w * d;

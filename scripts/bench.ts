@@ -94,7 +94,8 @@ const WARM_UP_RUNS = 5;
 /**
  * Median wall-clock and CPU time of `repeats` runs after a warm-up (WARM_UP_RUNS runs and WARM_UP_MS at least:
  * JIT compilation is not what is being measured); a first run slower than `slowMs` is itself the figure (one run).
- * CPU time is shown too because other work on the machine inflates wall-clock time. (No forced garbage collection:
+ * CPU time is shown too because other work on the machine inflates wall-clock time; on a shared host stretches of
+ * slower runs come and go, so fits up to n = 10,000 take the median of 21 runs. (No forced garbage collection:
  * it makes V8 shrink its heap and collect more often afterwards, which slowed the rows after it down severalfold.)
  */
 function medianTime(run: () => void, repeats: number, slowMs = 1000): { ms: number; cpuMs: number; runs: number } {
@@ -180,7 +181,7 @@ function bench(): void {
     const sizes = method === 'passingBablok' ? [100, 1000, 10000, 100000] : [100, 1000, 10000];
     for (const n of sizes) {
       const { x, y } = syntheticStudy(n, 42);
-      const repeats = n <= 1000 ? 11 : n <= 10000 ? 5 : 3;
+      const repeats = n <= 10000 ? 21 : 3;
       const time = medianTime(() => void fit(x, y), repeats);
       const target = FIT_TARGET_MS[method]?.[n];
       rows.push([`${method} fit`, String(n), timing(time), target ? `≤ ${target} ms` : '—', target ? met(time.ms, target) : '']);

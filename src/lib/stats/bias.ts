@@ -169,7 +169,8 @@ function robustRefit(fit: LineFit, x: readonly number[], y: readonly number[], t
  * Slopes are (y_j − y_i)/(x_j − x_i), identical points skipped, slopes of exactly −1 dropped, equal x with different
  * y counted as +∞ — as in fitPassingBablok, which the tests compare it with. O(n²) once, then per resample the
  * weight below the full data's median slope (slopeScanStart), a scan from there to the resample's median and the
- * median offset from a nearly sorted order (weightedMedianOffset), with no allocation, instead of a full fit with its intervals and linearity test.
+ * median offset from a nearly sorted order (weightedMedianOffset), with no allocation, instead of a full fit with its
+ * intervals and linearity test.
  */
 function passingBablokRefit(x: readonly number[], y: readonly number[]): IndexedRefit {
   const n = x.length;

@@ -362,23 +362,14 @@ class LineDesign implements LinearDesign {
   }
 
   mFinal(y: Float64Array, beta: Float64Array, norm: RobustNorm, scale: number): MFinal {
-    const { xs, n, shiftX } = this;
+    const { n, shiftX } = this;
     const step = this.stepWork;
     step.y = y;
     const weights = new Array<number>(n);
     norm.lineFinal(step, beta[0], beta[1], scale, weights);
     const { sums } = step;
     // the hat values of W^½X from the weighted moments of the same pass
-    const sumW = sums[LineFinal.w];
-    const meanX = shiftX + sums[LineFinal.wd] / sumW;
-    const sxx = sums[LineFinal.wdd] - (sums[LineFinal.wd] * sums[LineFinal.wd]) / sumW;
-    if (!(sumW > 0) || !(sxx > 1e-14 * sums[LineFinal.wdd])) singularLine();
-    const hat = new Array<number>(n);
-    const inverseSumW = 1 / sumW;
-    for (let i = 0; i < n; i++) {
-      const d = xs[i] - meanX;
-      hat[i] = weights[i] * (inverseSumW + (d * d) / sxx);
-    }
+    const hat = this.hatValues(lineMoments(shiftX, sums[LineFinal.w], sums[LineFinal.wd], sums[LineFinal.wdd]), weights);
     return { weights, hat, sumPsiSquared: sums[LineFinal.psi2], sumPsiDeriv: sums[LineFinal.dpsi], sumPsiDerivSquared: sums[LineFinal.dpsi2] };
   }
 
@@ -391,7 +382,11 @@ class LineDesign implements LinearDesign {
   }
 
   hatDiagonal(weights: Float64Array | null): number[] {
-    const { sumW, meanX, sxx } = this.moments(weights);
+    return this.hatValues(this.moments(weights), weights);
+  }
+
+  /** hᵢ = wᵢ(1/Σw + (xᵢ − x̄)²/Sxx) from the weighted moments of these same weights (null: all 1). */
+  private hatValues({ sumW, meanX, sxx }: LineMoments, weights: ArrayLike<number> | null): number[] {
     const { xs, n } = this;
     const hat = new Array<number>(n);
     const inverseSumW = 1 / sumW;
@@ -429,10 +424,15 @@ class LineDesign implements LinearDesign {
       sumX += w * dx;
       sumXX += w * dx * dx;
     }
-    const sxx = sumXX - (sumX * sumX) / sumW;
-    if (!(sumW > 0) || !(sxx > 1e-14 * sumXX)) singularLine();
-    return { sumW, meanX: shiftX + sumX / sumW, sxx };
+    return lineMoments(shiftX, sumW, sumX, sumXX);
   }
+}
+
+/** The moments from the weighted sums Σw, Σw·d, Σw·d² of d = x − shift; throws when all weight is on one x. */
+function lineMoments(shift: number, sumW: number, sumD: number, sumDD: number): LineMoments {
+  const sxx = sumDD - (sumD * sumD) / sumW;
+  if (!(sumW > 0) || !(sxx > 1e-14 * sumDD)) singularLine();
+  return { sumW, meanX: shift + sumD / sumW, sxx };
 }
 
 function singularLine(): never {
@@ -482,10 +482,7 @@ export function createDesign(X: readonly (readonly number[])[]): LinearDesign {
   }
 
   function checkRank(diagonal: number[], what: string): void {
-    const largest = Math.max(...diagonal.map(Math.abs));
-    if (!(largest > 0) || diagonal.some((d) => Math.abs(d) <= RANK_TOLERANCE * largest)) {
-      throw new StatsInputError(`${what}: the columns of X are linearly dependent`, { field: 'X' });
-    }
+    if (!fullRank(diagonal)) throw new StatsInputError(`${what}: the columns of X are linearly dependent`, { field: 'X' });
   }
 
   function crossProductInverseMatrix(weights: Float64Array | null): Matrix {
@@ -645,13 +642,17 @@ function spectralRadius2(c00: number, c01: number, c10: number, c11: number): nu
   return disc >= 0 ? Math.abs(half) + Math.sqrt(disc) : Math.sqrt(det);
 }
 
+/** Whether no pivot on this diagonal (of R in QR, of U in LU) is zero relative to the largest: X has full rank. */
+function fullRank(diagonal: number[]): boolean {
+  const largest = Math.max(...diagonal.map(Math.abs));
+  return largest > 0 && diagonal.every((d) => Math.abs(d) > RANK_TOLERANCE * largest);
+}
+
 /** The solution of the square system a·z = b by LU decomposition, or null when a is singular. */
 function solveSquare(a: Matrix, b: number[]): Float64Array | null {
   const lu = new LuDecomposition(a);
   const u = lu.upperTriangularMatrix;
-  const pivots = Array.from({ length: a.rows }, (_, j) => Math.abs(u.get(j, j)));
-  const largest = Math.max(...pivots);
-  if (!(largest > 0) || pivots.some((d) => d <= RANK_TOLERANCE * largest)) return null;
+  if (!fullRank(Array.from({ length: a.rows }, (_, j) => u.get(j, j)))) return null;
   return Float64Array.from(lu.solve(Matrix.columnVector(b)).getColumn(0));
 }
 

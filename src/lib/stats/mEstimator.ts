@@ -177,13 +177,11 @@ export function irlsOnDesign(design: LinearDesign, y: Float64Array, norm: Robust
     const tryNewton = size <= newtonBelow && newtonStepWithin(beta, newton, NEWTON_STRETCH * size);
     plain.set(irls);
     candidate.set(tryNewton ? newton : irls);
-    const lastScale = scale.previous;
     const candidateSize = tryNewton ? sizeOrInfinity(evaluate, candidate) : evaluate(candidate);
     iterations++;
     if (tryNewton && candidateSize > NEWTON_GAIN * size && iterations < maxIterations) {
       // not in Newton's region yet: the plain update instead, and no Newton again until the steps are 10× shorter
       newtonBelow = size / 10;
-      scale.previous = lastScale;
       [beta, plain] = [plain, beta];
       size = evaluate(beta);
       iterations++;
